@@ -1,0 +1,221 @@
+"""Errors, and the one table of messages users see for them.
+
+Two kinds of problem stop a proof:
+
+* ``Untranslatable`` -- the code uses something the translator does not model
+  yet. The obligation ends ``unknown`` with the construct and line named.
+  Raising it is the only road from the translator to that verdict.
+* ``SpecError`` -- the spec itself is malformed (a relation naming a parameter
+  the function does not have, a ``raises`` key that is not a class, ...). The
+  obligation ends ``error`` with file:line.
+
+Every message lives in ``MESSAGES`` with a minimal snippet that triggers it;
+``tests/test_errors.py`` checks each row, so a message cannot rot unseen.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Dict, Optional
+
+
+@dataclass(frozen=True)
+class Message:
+    text: str  # what went wrong; ``{name}`` fields are filled in
+    hint: str  # what to do about it
+    snippet: str  # a minimal module that triggers it (checked by the tests)
+    kind: str  # "unsupported" (-> unknown) or "spec" (-> error)
+
+
+MESSAGES: Dict[str, Message] = {
+    # ---- constructs the translator does not model yet: verdict ``unknown``
+    "statement": Message(
+        "`{construct}` statements are not translated yet",
+        "supported statements: assignment, augmented assignment, if/elif/else, "
+        "return, raise, assert, pass",
+        "@refines(lambda n, result: result >= 0)\n"
+        "def f(n: int) -> int:\n    total = 0\n    for i in range(n):\n"
+        "        total += i\n    return total\n",
+        "unsupported",
+    ),
+    "expression": Message(
+        "`{construct}` expressions are not translated yet",
+        "supported: int and bool arithmetic (+ - * // % ** with a constant "
+        "exponent), comparisons, and/or/not, conditional expressions, tuples, "
+        "abs/min/max",
+        "@refines(lambda xs, result: result >= 0)\n"
+        "def f(xs: int) -> int:\n    return len([xs])\n",
+        "unsupported",
+    ),
+    "call": Message(
+        "calls to `{callee}` are not translated yet",
+        "only abs, min, max, int and bool are modelled; calls to other functions "
+        "arrive with a later release",
+        "def helper(x):\n    return x\n\n"
+        "@refines(lambda x, result: result == x)\n"
+        "def f(x: int) -> int:\n    return helper(x)\n",
+        "unsupported",
+    ),
+    "operator": Message(
+        "the operator `{op}` is not translated for {types}",
+        "{hint}",
+        "@refines(lambda x, result: result >= 0)\n"
+        "def f(x: int) -> int:\n    return x & 7\n",
+        "unsupported",
+    ),
+    "power": Message(
+        "`**` is translated only for an int base and a constant exponent "
+        "0 <= e <= 64, not `{construct}`",
+        "a negative exponent gives a float, which is not modelled yet",
+        "@refines(lambda x, n, result: result >= 0)\n"
+        "def f(x: int, n: int) -> int:\n    return x ** n\n",
+        "unsupported",
+    ),
+    "value": Message(
+        "the value `{construct}` of type {type} is not modelled yet",
+        "this release models int, bool, tuples of them and None",
+        "@refines(lambda x, result: result > 0)\n"
+        "def f(x: int) -> float:\n    return x + 0.5\n",
+        "unsupported",
+    ),
+    "param-type": Message(
+        "parameter `{name}` has the type hint `{hint_text}`, which is not modelled yet",
+        "this release proves functions whose parameters are annotated int or "
+        "bool (an unannotated parameter is taken as int)",
+        "@refines(lambda s, result: result == s)\n"
+        "def f(s: str) -> str:\n    return s\n",
+        "unsupported",
+    ),
+    "name": Message(
+        "the name `{name}` is not a parameter, a local assigned before this "
+        "line, or a module-level int/bool constant",
+        "module constants must be assigned once at module level to an int or bool",
+        "import os\n\n@refines(lambda x, result: result == x)\n"
+        "def f(x: int) -> int:\n    return os.sep\n",
+        "unsupported",
+    ),
+    "mixed": Message(
+        "`{construct}` holds values of different shapes on different paths ({shapes})",
+        "give the variable one type (int/bool, or tuples of one length) on every path",
+        "@refines(lambda x, result: True)\n"
+        "def f(x: int):\n    if x > 0:\n        y = (1, 2)\n    else:\n        y = 3\n"
+        "    return y\n",
+        "unsupported",
+    ),
+    "signature": Message(
+        "the parameter kind `{construct}` is not supported yet",
+        "use plain positional-or-keyword or keyword-only parameters",
+        "@refines(lambda result: result >= 0)\n"
+        "def f(*args: int) -> int:\n    return 0\n",
+        "unsupported",
+    ),
+    "nested": Message(
+        "`{qualname}` is defined inside another function or class; only "
+        "module-level functions are proved in this release",
+        "move the function to module level",
+        "class Fleet:\n    @staticmethod\n"
+        "    @refines(lambda x, result: result == x)\n"
+        "    def f(x: int) -> int:\n        return x\n",
+        "unsupported",
+    ),
+    # ---- malformed specs: verdict ``error``
+    "spec-form": Message(
+        "the {role} must be a lambda or a def that returns one expression",
+        "write it as `lambda <names>: <expression>`",
+        "def rel(x, result):\n    y = x\n    return result == y\n\n"
+        "@refines(rel)\ndef f(x: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-names": Message(
+        "the {role} names `{name}`, which is not {allowed_what}",
+        "allowed names: {allowed}",
+        "@refines(lambda y, result: result == y)\n"
+        "def f(x: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-old": Message(
+        "`old(...)` takes exactly one expression and may only appear in the relation",
+        "write `old(x)` inside the relation; assuming= and raises= already "
+        "read the pre-state",
+        "@refines(lambda x, result: result == x, assuming=lambda x: old(x) > 0)\n"
+        "def f(x: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-raises": Message(
+        "raises= must be a dict literal from exception classes to lambdas",
+        "write it as `raises={{ValueError: lambda qty: qty < 0}}`",
+        "CONDITIONS = {ValueError: lambda x: x < 0}\n\n"
+        "@refines(lambda x, result: result == x, raises=CONDITIONS)\n"
+        "def f(x: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-raising": Message(
+        "the {role} itself raises {exception} for {inputs}",
+        "guard it, e.g. `y != 0 and x // y > 1` (and/or short-circuit as in Python)",
+        "@refines(lambda x, y, result: True, assuming=lambda x, y: x // y > 0)\n"
+        "def f(x: int, y: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-value": Message(
+        "the {role} has the value `{construct}`, which is not a bool",
+        "a {role} is a condition: write a comparison or a combination of them",
+        "@refines(lambda x, result: (result, x))\n"
+        "def f(x: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-decorators": Message(
+        "found {runtime} @refines specs on `{qualname}` at run time but {source} "
+        "`@refines(...)` decorators in its source",
+        "apply @refines directly as a decorator, `@refines(...)` or `@refines.refines(...)`",
+        "from refines import refines as r\n\ndef f(x: int) -> int:\n    return x\n\n"
+        "f = r(lambda x, result: result == x)(f)\n",
+        "spec",
+    ),
+}
+
+
+def format_message(key: str, **fields: object) -> tuple:
+    """Return ``(text, hint)`` for ``key`` with the fields filled in."""
+    msg = MESSAGES[key]
+    return msg.text.format(**fields), msg.hint.format(**fields)
+
+
+@dataclass
+class Untranslatable(Exception):
+    """A construct the translator does not model (verdict ``unknown``)."""
+
+    key: str
+    line: int
+    fields: Dict[str, object] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        super().__init__(self.text)
+
+    @property
+    def text(self) -> str:
+        return format_message(self.key, **self.fields)[0]
+
+    @property
+    def hint(self) -> str:
+        return format_message(self.key, **self.fields)[1]
+
+
+@dataclass
+class SpecError(Exception):
+    """A malformed spec (verdict ``error``)."""
+
+    key: str
+    line: int
+    fields: Dict[str, object] = field(default_factory=dict)
+    path: Optional[str] = None
+
+    def __post_init__(self) -> None:
+        super().__init__(self.text)
+
+    @property
+    def text(self) -> str:
+        return format_message(self.key, **self.fields)[0]
+
+    @property
+    def hint(self) -> str:
+        return format_message(self.key, **self.fields)[1]

@@ -1,0 +1,389 @@
+"""The intermediate form: before/after relations as small frozen terms.
+
+A term is an expression over the pre-state (the parameters) with Python's
+meaning: ``Arith('//', a, b)`` is Python's floor division, not the solver's.
+Terms form a DAG (translation shares sub-terms instead of copying them), so
+code that walks them memoises by ``id`` rather than hashing structurally.
+
+``repr`` prints a term as the Python expression it stands for, so a
+behaviour reads like the mathematics::
+
+    x > 0  ->  result = x + 1
+    not (x > 0)  ->  raises ValueError
+
+The smart constructors (``and_``, ``or_``, ``not_``, ``ite``, ``arith``,
+``cmp``) fold constants and flatten, which keeps terms small; they never
+change the meaning of a term.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Optional, Tuple, Union
+
+INT = "int"
+BOOL = "bool"
+
+ARITH_OPS = ("+", "-", "*", "//", "%")
+CMP_OPS = ("<", "<=", ">", ">=", "==", "!=")
+FLIPPED = {"<": ">", "<=": ">=", ">": "<", ">=": "<=", "==": "==", "!=": "!="}
+NEGATED = {"<": ">=", "<=": ">", ">": "<=", ">=": "<", "==": "!=", "!=": "=="}
+
+# Binding strength, for printing with the fewest parentheses Python needs.
+_PREC = {"ite": 0, "or": 1, "and": 2, "not": 3, "cmp": 4, "+": 5, "-": 5,
+         "*": 6, "//": 6, "%": 6, "neg": 7, "atom": 9}
+
+
+class Term:
+    """Base of all terms. ``sort`` is ``INT`` or ``BOOL``."""
+
+    sort: str
+    __slots__ = ()
+
+    def __repr__(self) -> str:
+        return render(self)
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Var(Term):
+    name: str
+    sort: str
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Const(Term):
+    value: Union[int, bool]
+    sort: str
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Arith(Term):
+    op: str
+    left: Term
+    right: Term
+    sort: str = INT
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Neg(Term):
+    arg: Term
+    sort: str = INT
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class ToInt(Term):
+    """``int(b)`` for a bool ``b``: Python's bool is an int (True == 1)."""
+
+    arg: Term
+    sort: str = INT
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Cmp(Term):
+    op: str
+    left: Term
+    right: Term
+    sort: str = BOOL
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Not(Term):
+    arg: Term
+    sort: str = BOOL
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class And(Term):
+    args: Tuple[Term, ...]
+    sort: str = BOOL
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Or(Term):
+    args: Tuple[Term, ...]
+    sort: str = BOOL
+
+
+@dataclass(frozen=True, repr=False, eq=False)
+class Ite(Term):
+    cond: Term
+    then: Term
+    orelse: Term
+
+    @property
+    def sort(self) -> str:  # type: ignore[override]
+        return self.then.sort
+
+
+TRUE = Const(True, BOOL)
+FALSE = Const(False, BOOL)
+
+
+def const(value: Union[int, bool]) -> Const:
+    if isinstance(value, bool):
+        return TRUE if value else FALSE
+    return Const(value, INT)
+
+
+def is_true(t: Term) -> bool:
+    return isinstance(t, Const) and t.value is True
+
+
+def is_false(t: Term) -> bool:
+    return isinstance(t, Const) and t.value is False
+
+
+def as_int(t: Term) -> Term:
+    """View a term as an int (Python's bool is an int subclass)."""
+    if t.sort == INT:
+        return t
+    if isinstance(t, Const):
+        return const(int(t.value))
+    return ToInt(t)
+
+
+# ---------------------------------------------------------------- constructors
+
+
+def and_(*args: Term) -> Term:
+    flat = []
+    for a in args:
+        if is_true(a):
+            continue
+        if is_false(a):
+            return FALSE
+        if isinstance(a, And):
+            flat.extend(a.args)
+        else:
+            flat.append(a)
+    if not flat:
+        return TRUE
+    if len(flat) == 1:
+        return flat[0]
+    return And(tuple(flat))
+
+
+def or_(*args: Term) -> Term:
+    flat = []
+    for a in args:
+        if is_false(a):
+            continue
+        if is_true(a):
+            return TRUE
+        if isinstance(a, Or):
+            flat.extend(a.args)
+        else:
+            flat.append(a)
+    if not flat:
+        return FALSE
+    if len(flat) == 1:
+        return flat[0]
+    return Or(tuple(flat))
+
+
+def not_(a: Term) -> Term:
+    if isinstance(a, Const):
+        return const(not a.value)
+    if isinstance(a, Not):
+        return a.arg
+    return Not(a)
+
+
+def implies(a: Term, b: Term) -> Term:
+    return or_(not_(a), b)
+
+
+def ite(cond: Term, then: Term, orelse: Term) -> Term:
+    if is_true(cond) or then is orelse:
+        return then
+    if is_false(cond):
+        return orelse
+    if then.sort != orelse.sort:
+        then, orelse = as_int(then), as_int(orelse)
+    if then.sort == BOOL:
+        if is_true(then) and is_false(orelse):
+            return cond
+        if is_false(then) and is_true(orelse):
+            return not_(cond)
+    return Ite(cond, then, orelse)
+
+
+def arith(op: str, left: Term, right: Term) -> Term:
+    left, right = as_int(left), as_int(right)
+    if isinstance(left, Const) and isinstance(right, Const):
+        a, b = left.value, right.value
+        if op == "+":
+            return const(a + b)
+        if op == "-":
+            return const(a - b)
+        if op == "*":
+            return const(a * b)
+        if b != 0:  # by zero: the caller has already made it a raising outcome
+            return const(a // b if op == "//" else a % b)
+    if op == "+" and _is_zero(right):
+        return left
+    if op == "+" and _is_zero(left):
+        return right
+    if op == "-" and _is_zero(right):
+        return left
+    if op == "*" and _is_one(right):
+        return left
+    if op == "*" and _is_one(left):
+        return right
+    return Arith(op, left, right)
+
+
+def neg(a: Term) -> Term:
+    a = as_int(a)
+    if isinstance(a, Const):
+        return const(-a.value)
+    if isinstance(a, Neg):
+        return a.arg
+    return Neg(a)
+
+
+def cmp(op: str, left: Term, right: Term) -> Term:
+    if left.sort != right.sort or op not in ("==", "!="):
+        left, right = as_int(left), as_int(right)
+    if isinstance(left, Const) and isinstance(right, Const):
+        a, b = left.value, right.value
+        return const({"<": a < b, "<=": a <= b, ">": a > b, ">=": a >= b,
+                      "==": a == b, "!=": a != b}[op])
+    return Cmp(op, left, right)
+
+
+def _is_zero(t: Term) -> bool:
+    return isinstance(t, Const) and t.value == 0 and t.sort == INT
+
+
+def _is_one(t: Term) -> bool:
+    return isinstance(t, Const) and t.value == 1 and t.sort == INT
+
+
+# ---------------------------------------------------------------- values
+
+@dataclass(frozen=True, eq=False)
+class Tup:
+    """A tuple value: a fixed number of values (terms or nested tuples)."""
+
+    items: Tuple["Value", ...]
+
+    def __repr__(self) -> str:
+        inner = ", ".join(render_value(v) for v in self.items)
+        return f"({inner},)" if len(self.items) == 1 else f"({inner})"
+
+
+class NoneValue:
+    """Python's ``None`` as a value."""
+
+    _instance: Optional["NoneValue"] = None
+
+    def __new__(cls) -> "NoneValue":
+        if cls._instance is None:
+            cls._instance = super().__new__(cls)
+        return cls._instance
+
+    def __repr__(self) -> str:
+        return "None"
+
+
+NONE = NoneValue()
+
+Value = Union[Term, Tup, NoneValue]
+
+
+def render_value(v: Value) -> str:
+    return repr(v) if not isinstance(v, Term) else render(v)
+
+
+# ---------------------------------------------------------------- behaviours
+
+
+@dataclass(frozen=True, eq=False)
+class Outcome:
+    """One way the body can end: ``guard`` holds exactly on the pre-states that
+    end this way. Guards of a behaviour's outcomes are disjoint and cover every
+    pre-state."""
+
+    guard: Term
+    value: Optional[Value] = None  # set when the body returns
+    exception: Optional[type] = None  # set when it raises
+    line: int = 0
+    cause: str = ""  # for raises: the statement or operation that raises
+
+    @property
+    def returns(self) -> bool:
+        return self.exception is None
+
+    def __repr__(self) -> str:
+        if self.returns:
+            end = f"result = {render_value(self.value)}"
+        else:
+            end = f"raises {self.exception.__name__}"
+        return f"{render(self.guard)}  ->  {end}"
+
+
+@dataclass(frozen=True, eq=False)
+class Behaviour:
+    """The before/after relation of a function body, as its outcomes."""
+
+    params: Tuple[Var, ...]
+    outcomes: Tuple[Outcome, ...]
+
+    def __repr__(self) -> str:
+        return "\n".join(repr(o) for o in self.outcomes)
+
+
+# ---------------------------------------------------------------- printing
+
+
+def render(t: Term) -> str:
+    """Print a term as the Python expression it stands for."""
+    return _render(t, 0, {})
+
+
+def _render(t: Term, ctx_prec: int, memo: dict) -> str:
+    text, prec = _render_prec(t, memo)
+    return f"({text})" if prec < ctx_prec else text
+
+
+def _render_prec(t: Term, memo: dict):
+    key = id(t)
+    if key in memo:
+        return memo[key]
+    out = _render_node(t, memo)
+    memo[key] = out
+    return out
+
+
+def _render_node(t: Term, memo: dict):
+    if isinstance(t, Var):
+        return t.name, _PREC["atom"]
+    if isinstance(t, Const):
+        if t.sort == INT and t.value < 0:
+            return repr(t.value), _PREC["neg"]
+        return repr(t.value), _PREC["atom"]
+    if isinstance(t, Arith):
+        p = _PREC[t.op]
+        # Left-associative: the right operand needs parentheses at equal strength.
+        return f"{_render(t.left, p, memo)} {t.op} {_render(t.right, p + 1, memo)}", p
+    if isinstance(t, Neg):
+        return f"-{_render(t.arg, _PREC['neg'], memo)}", _PREC["neg"]
+    if isinstance(t, ToInt):
+        return f"int({_render(t.arg, 0, memo)})", _PREC["atom"]
+    if isinstance(t, Cmp):
+        p = _PREC["cmp"]
+        return f"{_render(t.left, p + 1, memo)} {t.op} {_render(t.right, p + 1, memo)}", p
+    if isinstance(t, Not):
+        return f"not {_render(t.arg, _PREC['not'], memo)}", _PREC["not"]
+    if isinstance(t, And):
+        p = _PREC["and"]
+        return " and ".join(_render(a, p + 1, memo) for a in t.args), p
+    if isinstance(t, Or):
+        p = _PREC["or"]
+        return " or ".join(_render(a, p + 1, memo) for a in t.args), p
+    if isinstance(t, Ite):
+        p = _PREC["ite"]
+        return (f"{_render(t.then, p + 1, memo)} if {_render(t.cond, p + 1, memo)} "
+                f"else {_render(t.orelse, p, memo)}"), p
+    raise TypeError(f"not a term: {t!r}")

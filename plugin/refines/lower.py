@@ -1,0 +1,116 @@
+"""Lowering terms to z3 formulas, with Python's semantics.
+
+Every obligation gets its own ``z3.Context`` (see ``prove``): results then do
+not depend on what was solved before in the same process. All z3 objects
+here are built in that context explicitly.
+"""
+
+from __future__ import annotations
+
+from typing import Dict
+
+import z3
+
+from refines import ir
+
+
+class Lowering:
+    """Translate terms into one z3 context, sharing common sub-terms."""
+
+    def __init__(self, ctx: z3.Context) -> None:
+        self.ctx = ctx
+        self._memo: Dict[int, z3.ExprRef] = {}
+        self._keep: list = []  # keeps memoised terms alive so ids stay unique
+        self.vars: Dict[str, z3.ExprRef] = {}
+
+    def var(self, name: str, sort: str) -> z3.ExprRef:
+        key = f"{name}:{sort}"
+        if key not in self.vars:
+            self.vars[key] = (z3.Int(name, self.ctx) if sort == ir.INT
+                              else z3.Bool(name, self.ctx))
+        return self.vars[key]
+
+    def __call__(self, t: ir.Term) -> z3.ExprRef:
+        # Iterative post-order walk: terms from long bodies are deep DAGs.
+        stack = [(t, False)]
+        memo = self._memo
+        while stack:
+            node, ready = stack.pop()
+            if id(node) in memo:
+                continue
+            kids = _children(node)
+            if ready or not kids:
+                memo[id(node)] = self._node(node)
+                self._keep.append(node)
+            else:
+                stack.append((node, True))
+                stack.extend((k, False) for k in kids if id(k) not in memo)
+        return memo[id(t)]
+
+    def _node(self, t: ir.Term) -> z3.ExprRef:
+        m = self._memo
+        ctx = self.ctx
+        if isinstance(t, ir.Var):
+            return self.var(t.name, t.sort)
+        if isinstance(t, ir.Const):
+            if t.sort == ir.BOOL:
+                return z3.BoolVal(bool(t.value), ctx)
+            return z3.IntVal(int(t.value), ctx)
+        if isinstance(t, ir.Arith):
+            a, b = m[id(t.left)], m[id(t.right)]
+            if t.op == "+":
+                return a + b
+            if t.op == "-":
+                return a - b
+            if t.op == "*":
+                return a * b
+            return floor_divmod(a, b, ctx)[0 if t.op == "//" else 1]
+        if isinstance(t, ir.Neg):
+            return -m[id(t.arg)]
+        if isinstance(t, ir.ToInt):
+            return z3.If(m[id(t.arg)], z3.IntVal(1, ctx), z3.IntVal(0, ctx))
+        if isinstance(t, ir.Cmp):
+            a, b = m[id(t.left)], m[id(t.right)]
+            return {"<": lambda: a < b, "<=": lambda: a <= b, ">": lambda: a > b,
+                    ">=": lambda: a >= b, "==": lambda: a == b,
+                    "!=": lambda: a != b}[t.op]()
+        if isinstance(t, ir.Not):
+            return z3.Not(m[id(t.arg)])
+        if isinstance(t, ir.And):
+            return z3.And([m[id(a)] for a in t.args])
+        if isinstance(t, ir.Or):
+            return z3.Or([m[id(a)] for a in t.args])
+        if isinstance(t, ir.Ite):
+            return z3.If(m[id(t.cond)], m[id(t.then)], m[id(t.orelse)])
+        raise TypeError(f"cannot lower {t!r}")
+
+
+def floor_divmod(a: z3.ArithRef, b: z3.ArithRef, ctx: z3.Context):
+    """Python's ``a // b`` and ``a % b`` for b != 0.
+
+    z3's integer ``/`` and ``%`` are Euclidean: the remainder is never
+    negative. Python rounds the quotient toward minus infinity, so the
+    remainder takes the divisor's sign (Language Reference, "Binary arithmetic
+    operations"). The two agree when b > 0 or the division is exact; for
+    b < 0 with a non-zero Euclidean remainder r, Python's pair is (q - 1, r + b).
+    Both results are built from the same native pair: building them from
+    different but equivalent forms leaves the solver unable to relate them.
+    The value at b == 0 is irrelevant: division by zero is a raising outcome.
+    """
+    q = a / b
+    r = a % b
+    fix = z3.And(b < 0, r != 0)
+    one = z3.IntVal(1, ctx)
+    return z3.If(fix, q - one, q), z3.If(fix, r + b, r)
+
+
+def _children(t: ir.Term):
+    if isinstance(t, (ir.Arith, ir.Cmp)):
+        return (t.left, t.right)
+    if isinstance(t, (ir.Neg, ir.ToInt, ir.Not)):
+        return (t.arg,)
+    if isinstance(t, (ir.And, ir.Or)):
+        return t.args
+    if isinstance(t, ir.Ite):
+        return (t.cond, t.then, t.orelse)
+    return ()

@@ -1,0 +1,383 @@
+"""The exact precondition of a spec, made readable and checked before it is shown.
+
+For a deterministic body the exact (weakest) precondition follows from the
+one-point law: the post-state is a function of the pre-state, so quantifying
+over it collapses to substituting each outcome into the spec,
+
+    wp = OR over outcomes o of (guard_o and allowed_o)
+
+where ``allowed_o`` is the relation with ``result`` replaced by the returned
+value (and no ``raises`` condition holding), or for a raising outcome, some
+``raises`` condition for that class holding.
+
+Readability: if-then-else terms are lifted out of comparisons, the formula
+is put in disjunctive normal form, each comparison is normalised to
+``<linear form> <op> <constant>``, and the solver removes empty cubes,
+redundant literals and subsumed cubes. The printed Python is parsed back with
+the project's own translator and the solver checks it is equivalent to the
+computed condition (under the current ``assuming`` for the suggestion): a
+wrong suggestion is never shown.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from math import gcd
+from typing import Dict, List, Optional, Sequence, Tuple
+
+import z3
+
+from refines import ir
+from refines.errors import SpecError, Untranslatable
+from refines.translate import Scope, parse_expression, translate_spec
+
+MAX_CUBES = 64
+
+
+@dataclass
+class Preconditions:
+    exact: Optional[str]
+    suggested: Optional[str]
+    note: Optional[str] = None
+
+
+def weakest(behaviour: ir.Behaviour, spec) -> ir.Term:
+    from refines.prove import allowed
+
+    return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes))
+
+
+def exact(ob, behaviour: ir.Behaviour, spec, solver) -> Preconditions:
+    wp = weakest(behaviour, spec)
+    params = ob.params
+    exact_text = readable(wp, ir.TRUE, params, solver)
+    if exact_text is None:
+        return Preconditions(None, None, "the exact precondition could not be put "
+                                         "in a form that was checked equivalent")
+    tightened = ir.and_(spec.assuming.holds, wp)
+    status, _, _ = solver.check(tightened)
+    if status == z3.unsat:
+        return Preconditions(exact_text, None,
+                             "no input allowed by the current assuming meets the spec")
+    candidates = []
+    if ob.assuming is None:
+        candidates.append(exact_text)
+    else:
+        alone = readable(tightened, ir.TRUE, params, solver)
+        if alone is not None:
+            candidates.append(alone)
+        rest = readable(wp, spec.assuming.holds, params, solver)
+        if rest is not None:
+            both = f"({ob.assuming.text}) and ({rest})" if rest != "True" else ob.assuming.text
+            if _equivalent(both, tightened, ir.TRUE, params, solver):
+                candidates.append(both)
+    if not candidates:
+        return Preconditions(exact_text, None, "no tightened assuming could be checked")
+    best = min(candidates, key=len)
+    used = [p.name for p in params if _mentions(best, p.name)]
+    return Preconditions(exact_text, f"lambda {', '.join(used)}: {best}".replace(
+        "lambda : ", "lambda: "))
+
+
+def _mentions(text: str, name: str) -> bool:
+    import re
+
+    return re.search(rf"(?<![\w.]){re.escape(name)}(?!\w)", text) is not None
+
+
+# ---------------------------------------------------------------- readable form
+
+
+def readable(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
+             solver) -> Optional[str]:
+    """Python text equivalent to ``target`` wherever ``context`` holds."""
+    cubes = dnf(target, False)
+    if cubes is not None:
+        cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
+        cubes = simplify_cubes(cubes, target, context, solver)
+        text = print_cubes(cubes)
+        if _equivalent(text, target, context, params, solver):
+            return text
+    text = ir.render(target)  # unsimplified, but still Python with its meaning
+    if _equivalent(text, target, context, params, solver):
+        return text
+    return None
+
+
+def _equivalent(text: str, target: ir.Term, context: ir.Term,
+                params: Sequence[ir.Var], solver) -> bool:
+    """Re-read ``text`` with the translator; the solver checks it equals ``target``."""
+    try:
+        node = parse_expression(text)
+        env = {p.name: p for p in params}
+        value = translate_spec(node, env, Scope({}, [p.name for p in params]), "check")
+    except (SyntaxError, SpecError, Untranslatable, Exception):  # noqa: BLE001
+        return False
+    # It must not raise where it matters, and must agree everywhere it matters.
+    differs = ir.or_(ir.not_(value.defined),
+                     ir.not_(ir.cmp("==", value.holds, target)))
+    status, _, _ = solver.check(context, differs)
+    return status == z3.unsat
+
+
+# ---------------------------------------------------------------- DNF with ite lifting
+
+Cube = List[ir.Term]
+
+
+def dnf(t: ir.Term, negate: bool) -> Optional[List[Cube]]:
+    """Disjunctive normal form of ``t`` (or of ``not t``); None if too large."""
+    if isinstance(t, ir.Const):
+        return [[]] if bool(t.value) != negate else []
+    if isinstance(t, ir.Not):
+        return dnf(t.arg, not negate)
+    if isinstance(t, (ir.And, ir.Or)):
+        conj = isinstance(t, ir.And) != negate
+        parts = [dnf(a, negate) for a in t.args]
+        if any(p is None for p in parts):
+            return None
+        return _product(parts) if conj else _concat(parts)
+    if isinstance(t, ir.Ite):
+        # (c and a) or (not c and b), with the negation pushed into a and b.
+        left = _product([dnf(t.cond, False), dnf(t.then, negate)])
+        right = _product([dnf(t.cond, True), dnf(t.orelse, negate)])
+        return _concat([left, right])
+    if isinstance(t, ir.Var):
+        return [[ir.not_(t) if negate else t]]
+    if isinstance(t, ir.Cmp):
+        if t.left.sort == ir.BOOL and t.right.sort == ir.BOOL:
+            same = ir.or_(ir.and_(t.left, t.right),
+                          ir.and_(ir.not_(t.left), ir.not_(t.right)))
+            return dnf(same, negate != (t.op == "!="))
+        op = ir.NEGATED[t.op] if negate else t.op
+        out: List[Cube] = []
+        lcases, rcases = cases(t.left), cases(t.right)
+        if lcases is None or rcases is None:
+            return None
+        for lcube, lterm in lcases:
+            for rcube, rterm in rcases:
+                out.append(lcube + rcube + [ir.cmp(op, lterm, rterm)])
+                if len(out) > MAX_CUBES:
+                    return None
+        return out
+    return None
+
+
+def cases(t: ir.Term) -> Optional[List[Tuple[Cube, ir.Term]]]:
+    """``t`` as a list of (condition cube, if-free term) pairs."""
+    if isinstance(t, (ir.Var, ir.Const)):
+        return [([], t)]
+    if isinstance(t, ir.Ite):
+        out = []
+        for cond_cubes, branch in ((dnf(t.cond, False), t.then), (dnf(t.cond, True), t.orelse)):
+            sub = cases(branch)
+            if cond_cubes is None or sub is None:
+                return None
+            out.extend((c + sc, st) for c in cond_cubes for sc, st in sub)
+        return out if len(out) <= MAX_CUBES else None
+    if isinstance(t, ir.ToInt):
+        a, b = dnf(t.arg, False), dnf(t.arg, True)
+        if a is None or b is None:
+            return None
+        return [(c, ir.const(1)) for c in a] + [(c, ir.const(0)) for c in b]
+    if isinstance(t, ir.Neg):
+        sub = cases(t.arg)
+        return None if sub is None else [(c, ir.neg(x)) for c, x in sub]
+    if isinstance(t, ir.Arith):
+        left, right = cases(t.left), cases(t.right)
+        if left is None or right is None or len(left) * len(right) > MAX_CUBES:
+            return None
+        return [(lc + rc, ir.arith(t.op, lt, rt)) for lc, lt in left for rc, rt in right]
+    return None
+
+
+def _product(parts: List[Optional[List[Cube]]]) -> Optional[List[Cube]]:
+    acc: List[Cube] = [[]]
+    for p in parts:
+        if p is None:
+            return None
+        acc = [a + b for a in acc for b in p]
+        if len(acc) > MAX_CUBES:
+            return None
+    return acc
+
+
+def _concat(parts: List[Optional[List[Cube]]]) -> Optional[List[Cube]]:
+    out: List[Cube] = []
+    for p in parts:
+        if p is None:
+            return None
+        out.extend(p)
+    return out if len(out) <= MAX_CUBES else None
+
+
+# ---------------------------------------------------------------- literals
+
+
+def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
+    """``t`` as {atom text: coefficient} plus a constant; non-linear parts are atoms."""
+    if isinstance(t, ir.Const):
+        return {}, int(t.value)
+    if isinstance(t, ir.Neg):
+        c, k = linear(t.arg, atoms)
+        return {a: -v for a, v in c.items()}, -k
+    if isinstance(t, ir.Arith) and t.op in ("+", "-"):
+        c1, k1 = linear(t.left, atoms)
+        c2, k2 = linear(t.right, atoms)
+        sign = 1 if t.op == "+" else -1
+        out = dict(c1)
+        for a, v in c2.items():
+            out[a] = out.get(a, 0) + sign * v
+        return {a: v for a, v in out.items() if v}, k1 + sign * k2
+    if isinstance(t, ir.Arith) and t.op == "*":
+        for const_side, other in ((t.left, t.right), (t.right, t.left)):
+            if isinstance(const_side, ir.Const):
+                c, k = linear(other, atoms)
+                m = int(const_side.value)
+                return {a: v * m for a, v in c.items() if v * m}, k * m
+    key = ir.render(t)
+    atoms[key] = t
+    return {key: 1}, 0
+
+
+def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
+    """A comparison as ``<linear form> <op> <constant>``, constants folded."""
+    if not isinstance(lit, ir.Cmp) or lit.left.sort != ir.INT:
+        return lit
+    atoms: Dict[str, ir.Term] = {}
+    c1, k1 = linear(lit.left, atoms)
+    c2, k2 = linear(lit.right, atoms)
+    coeffs = dict(c1)
+    for a, v in c2.items():
+        coeffs[a] = coeffs.get(a, 0) - v
+    coeffs = {a: v for a, v in coeffs.items() if v}
+    k = k2 - k1  # sum(coeffs * atoms) <op> k
+    op = lit.op
+    if not coeffs:
+        return ir.cmp(op, ir.const(0), ir.const(k))
+    names = sorted(coeffs, key=lambda a: (order.get(a, len(order)), a))
+    if coeffs[names[0]] < 0:  # lead with a positive coefficient
+        coeffs = {a: -v for a, v in coeffs.items()}
+        k, op = -k, ir.FLIPPED[op]
+    g = 0
+    for v in coeffs.values():
+        g = gcd(g, abs(v))
+    if g > 1:  # integer tightening: 2*x > 5  <=>  x > 2
+        if op in ("==", "!="):
+            if k % g:
+                return ir.const(op == "!=")
+            k //= g
+        elif op in (">", "<="):
+            k = k // g
+        else:  # "<", ">=": round up
+            k = -((-k) // g)
+        coeffs = {a: v // g for a, v in coeffs.items()}
+    lhs: Optional[ir.Term] = None
+    for a in names:
+        v = coeffs[a]
+        term = atoms[a] if abs(v) == 1 else ir.arith("*", ir.const(abs(v)), atoms[a])
+        if lhs is None:
+            lhs = term if v > 0 else ir.neg(term)
+        else:
+            lhs = ir.arith("+" if v > 0 else "-", lhs, term)
+    return ir.Cmp(op, lhs, ir.const(k))
+
+
+def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
+    order = {p.name: i for i, p in enumerate(params)}
+    out: Cube = []
+    for lit in cube:
+        n = normal_literal(lit, order)
+        if ir.is_false(n):
+            return None
+        if ir.is_true(n) or any(ir.render(n) == ir.render(o) for o in out):
+            continue
+        out.append(n)
+    return out
+
+
+# ---------------------------------------------------------------- solver clean-up
+
+
+def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
+                   solver) -> List[Cube]:
+    """Drop empty cubes, redundant literals and subsumed cubes, keeping
+    ``OR(cubes)`` equivalent to ``target`` under ``context``."""
+    kept = []
+    for cube in cubes:
+        status, _, _ = solver.check(context, *cube)
+        if status != z3.unsat:
+            kept.append(cube)
+    cubes = kept
+    not_target = ir.not_(target)
+    for i, cube in enumerate(cubes):
+        lits = list(cube)
+        j = 0
+        while j < len(lits):
+            # Weaken the cube by dropping a literal while it still implies
+            # the target; that also drops literals the context implies.
+            trial = lits[:j] + lits[j + 1:]
+            status, _, _ = solver.check(context, *trial, not_target)
+            if status == z3.unsat:
+                lits = trial
+            else:
+                j += 1
+        cubes[i] = lits
+    result: List[Cube] = []
+    for i, cube in enumerate(cubes):
+        others = result + cubes[i + 1:]
+        covered = ir.or_(*(ir.and_(*c) for c in others)) if others else ir.FALSE
+        status, _, _ = solver.check(context, *cube, ir.not_(covered))
+        if status != z3.unsat:
+            result.append(cube)
+    return result
+
+
+# ---------------------------------------------------------------- printing
+
+
+def print_cubes(cubes: List[Cube]) -> str:
+    if not cubes:
+        return "False"
+    if any(not c for c in cubes):
+        return "True"
+    texts = [print_cube(c) for c in cubes]
+    if len(texts) == 1:
+        return texts[0]
+    return " or ".join(f"({t})" if " and " in t else t for t in texts)
+
+
+def print_cube(cube: Cube) -> str:
+    """Literals joined by ``and``; bounds on one expression become a chain."""
+    lits = list(cube)
+    out = []
+    used = set()
+    for i, a in enumerate(lits):
+        if i in used:
+            continue
+        chained = None
+        if isinstance(a, ir.Cmp) and a.op in (">", ">=") and isinstance(a.right, ir.Const):
+            for j in range(i + 1, len(lits)):
+                b = lits[j]
+                if (j not in used and isinstance(b, ir.Cmp) and b.op in ("<", "<=")
+                        and isinstance(b.right, ir.Const)
+                        and ir.render(b.left) == ir.render(a.left)):
+                    lower_op = "<" if a.op == ">" else "<="
+                    chained = (f"{ir.render(a.right)} {lower_op} {ir.render(a.left)} "
+                               f"{b.op} {ir.render(b.right)}")
+                    used.add(j)
+                    break
+        if isinstance(a, ir.Cmp) and a.op in ("<", "<=") and chained is None \
+                and isinstance(a.right, ir.Const):
+            for j in range(i + 1, len(lits)):
+                b = lits[j]
+                if (j not in used and isinstance(b, ir.Cmp) and b.op in (">", ">=")
+                        and isinstance(b.right, ir.Const)
+                        and ir.render(b.left) == ir.render(a.left)):
+                    lower_op = "<" if b.op == ">" else "<="
+                    chained = (f"{ir.render(b.right)} {lower_op} {ir.render(a.left)} "
+                               f"{a.op} {ir.render(a.right)}")
+                    used.add(j)
+                    break
+        out.append(chained or ir.render(a))
+    return " and ".join(out)

@@ -1,0 +1,277 @@
+"""From an obligation to a verdict.
+
+The obligation "every pre-state allowed by ``assuming`` leads to an outcome
+the spec allows" is refuted by a single pre-state, so the solver is asked for
+one: ``assuming and (some outcome violates the spec)``. Unsatisfiable means
+proved. A model is a candidate counterexample, which is replayed by calling
+the real function; only a reproduced violation is reported as ``refuted``.
+
+Each obligation is solved in a fresh ``z3.Context``, so verdicts do not depend
+on what else ran in the process (or on xdist's scheduling).
+"""
+
+from __future__ import annotations
+
+import time
+import traceback
+from dataclasses import dataclass
+from typing import Any, Callable, Dict, List, Optional, Sequence, Tuple
+
+import z3
+
+from refines import ir, replay
+from refines.errors import SpecError, Untranslatable, format_message
+from refines.lower import Lowering
+from refines.source import Obligation, SpecPart
+from refines.translate import Scope, SpecValue, translate_body, translate_spec
+from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Result
+
+# z3 resource units per second of budget. The resource limit, unlike the
+# wall-clock timeout, makes "unknown" reproducible from run to run; the
+# timeout stays as a backstop. Measured with tests/benchmarks/bench_rlimit.py.
+RLIMIT_PER_SECOND = 4_000_000
+
+
+class Budget:
+    """The solver budget of one obligation, shared by all its queries."""
+
+    def __init__(self, seconds: float) -> None:
+        self.seconds = seconds
+        self.deadline = time.perf_counter() + seconds
+
+    def remaining(self) -> float:
+        return max(0.0, self.deadline - time.perf_counter())
+
+
+@dataclass
+class Spec:
+    """The spec of an obligation, translated, for one behaviour."""
+
+    assuming: SpecValue
+    raises: Tuple[Tuple[type, SpecPart, SpecValue], ...]
+    relation: Callable[[ir.Value], SpecValue]
+
+
+@dataclass
+class Violation:
+    """The pre-states on which one (group of) outcome(s) breaks the spec."""
+
+    term: ir.Term
+    outcome: ir.Outcome  # a representative outcome
+
+
+class Solver:
+    """Queries in the obligation's own z3 context."""
+
+    def __init__(self, budget: Budget) -> None:
+        self.ctx = z3.Context()
+        self.lower = Lowering(self.ctx)
+        self.budget = budget
+        self.queries = 0
+
+    def check(self, *terms: ir.Term, extra: Sequence[z3.ExprRef] = ()):
+        """``(status, model)`` for the conjunction of ``terms``."""
+        self.queries += 1
+        remaining = self.budget.remaining()
+        if remaining <= 0:
+            return z3.unknown, None, "the solver budget ran out"
+        s = z3.Solver(ctx=self.ctx)
+        s.set("timeout", max(1, int(remaining * 1000)))
+        s.set("rlimit", max(1, int(remaining * RLIMIT_PER_SECOND)))
+        s.add(*[self.lower(t) for t in terms], *extra)
+        status = s.check()
+        if status == z3.sat:
+            return status, s.model(), None
+        if status == z3.unknown:
+            return status, None, s.reason_unknown()
+        return status, None, None
+
+    def value(self, model: z3.ModelRef, v: ir.Value) -> Any:
+        """The Python value of ``v`` in ``model``."""
+        if isinstance(v, ir.Tup):
+            return tuple(self.value(model, i) for i in v.items)
+        if v is ir.NONE:
+            return None
+        z = model.eval(self.lower(v), model_completion=True)
+        if v.sort == ir.BOOL:
+            return z3.is_true(z)
+        return z.as_long()
+
+
+def translate_spec_for(ob: Obligation) -> Spec:
+    """Translate assuming, raises and relation over the parameters."""
+    pre: Dict[str, ir.Value] = {p.name: p for p in ob.params}
+
+    def read(part: SpecPart, env: Dict[str, ir.Value], old: Optional[dict] = None):
+        scope = Scope(part.globals, part.params)
+        try:
+            return translate_spec(part.body, {n: env[n] for n in part.params}, scope,
+                                  part.role, old_env=old)
+        except (SpecError, Untranslatable) as exc:
+            if isinstance(exc, SpecError) and exc.path is None:
+                exc.path = part.path
+            raise
+
+    assuming = (read(ob.assuming, pre) if ob.assuming is not None
+                else SpecValue(ir.TRUE, ir.TRUE, ()))
+    raises = tuple((cls, part, read(part, pre)) for cls, part in ob.raises)
+
+    def relation(result: ir.Value) -> SpecValue:
+        return read(ob.relation, dict(pre, result=result), old=pre)
+
+    return Spec(assuming, raises, relation)
+
+
+def allowed(spec: Spec, outcome: ir.Outcome, relation: Optional[SpecValue] = None) -> ir.Term:
+    """Where ``outcome`` (if it happens) meets the spec."""
+    if not outcome.returns:
+        return ir.or_(*(r.holds for cls, _, r in spec.raises
+                        if issubclass(outcome.exception, cls)))
+    no_raise_required = ir.and_(*(ir.not_(r.holds) for _, _, r in spec.raises))
+    relation = relation if relation is not None else spec.relation(outcome.value)
+    return ir.and_(no_raise_required, relation.holds)
+
+
+def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
+    """One violation term per group of outcomes.
+
+    Returns of the same shape are merged into one value (an if-then-else over
+    their guards), so the relation is read once rather than once per return.
+    """
+    out: List[Violation] = []
+    groups: Dict[str, List[ir.Outcome]] = {}
+    for o in behaviour.outcomes:
+        if o.returns:
+            groups.setdefault(_shape(o.value), []).append(o)
+        else:
+            out.append(Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o))
+    for members in groups.values():
+        value = members[-1].value
+        for o in reversed(members[:-1]):
+            value = _merge_value(o.guard, o.value, value)
+        guard = ir.or_(*(o.guard for o in members))
+        merged = ir.Outcome(guard, value=value, line=members[0].line)
+        out.append(Violation(ir.and_(guard, ir.not_(allowed(spec, merged))), merged))
+    return out
+
+
+def _shape(v: ir.Value) -> str:
+    if isinstance(v, ir.Tup):
+        return "(" + ",".join(_shape(i) for i in v.items) + ")"
+    return "None" if v is ir.NONE else "scalar"
+
+
+def _merge_value(cond: ir.Term, a: ir.Value, b: ir.Value) -> ir.Value:
+    if isinstance(a, ir.Tup):
+        return ir.Tup(tuple(_merge_value(cond, x, y) for x, y in zip(a.items, b.items)))
+    if a is ir.NONE:
+        return ir.NONE
+    return ir.ite(cond, a, b)
+
+
+def check(ob: Obligation, timeout: float) -> Result:
+    """The verdict on one obligation, within ``timeout`` seconds of solving."""
+    start = time.perf_counter()
+    result = _base(ob)
+    try:
+        result = _check(ob, Budget(timeout), result)
+    except Untranslatable as exc:
+        result.verdict = UNKNOWN
+        result.reason = f"not translated: {exc.text} ({ob.path}:{exc.line})"
+        result.hint = exc.hint
+    except SpecError as exc:
+        result.verdict = ERROR
+        result.reason = f"{exc.path or ob.path}:{exc.line}: {exc.text}"
+        result.hint = exc.hint
+    except Exception as exc:  # noqa: BLE001 -- never crash the session
+        result.verdict = ERROR
+        result.reason = (f"internal error while checking {ob.function} "
+                         f"({ob.path}:{ob.line}): {type(exc).__name__}: {exc}")
+        result.notes.append(traceback.format_exc())
+    result.seconds = time.perf_counter() - start
+    return result
+
+
+def _base(ob: Obligation) -> Result:
+    return Result(verdict=ERROR, function=ob.function, path=ob.path, line=ob.line)
+
+
+def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
+    scope = Scope(ob.fn.__globals__, list(ob.fn_node.locals))
+    behaviour = translate_body(ob.fn_node, ob.params, scope)
+    spec = translate_spec_for(ob)
+    solver = Solver(budget)
+
+    # A spec that can itself raise is malformed: say where, with an example.
+    ill = _ill_formed(ob, spec, solver)
+    if ill is not None:
+        result.verdict, result.reason, result.hint = ERROR, ill[0], ill[1]
+        return result
+
+    found = violations(behaviour, spec)
+    status, model, why = solver.check(spec.assuming.holds,
+                                      ir.or_(*(v.term for v in found)))
+    if status == z3.unsat:
+        result.verdict = PROVED
+        return result
+    if status == z3.unknown:
+        result.verdict = UNKNOWN
+        result.reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
+        result.hint = "raise --refines-timeout, or split the function"
+        return result
+
+    inputs = {p.name: solver.value(model, p) for p in ob.params}
+    predicted = _predicted(solver, model, behaviour)
+    actual = replay.run(ob, inputs)
+    judgement = replay.judge(ob, inputs, actual)
+    if judgement.holds or not replay.assuming_holds(ob, inputs):
+        result.verdict = ERROR
+        result.reason = (
+            f"translation disagrees with Python on {replay.call_text(ob, inputs)}: "
+            f"the translation predicted it {predicted} and breaks the spec, but the "
+            f"real call {actual.describe()}, which "
+            + ("meets the spec" if judgement.holds else "is outside `assuming`"))
+        result.hint = "please report this as a bug in pytest-refines"
+        return result
+    result.verdict = REFUTED
+    result.counterexample = Counterexample(
+        inputs={k: repr(v) for k, v in inputs.items()},
+        call=replay.call_text(ob, inputs), outcome=actual.outcome, confirmed=True,
+        violated=judgement.violated, violated_at=judgement.violated_at,
+        detail=judgement.detail or (actual.describe() if actual.raised else ""))
+
+    from refines import precondition
+
+    pre = precondition.exact(ob, behaviour, spec, solver)
+    result.exact_precondition = pre.exact
+    result.suggested_assuming = pre.suggested
+    result.precondition_note = pre.note
+    return result
+
+
+def _predicted(solver: Solver, model, behaviour: ir.Behaviour) -> str:
+    for o in behaviour.outcomes:
+        if z3.is_true(model.eval(solver.lower(o.guard), model_completion=True)):
+            if o.returns:
+                return f"returns {solver.value(model, o.value)!r}"
+            return f"raises {o.exception.__name__}"
+    return "ends in no modelled way"
+
+
+def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
+    checks = []
+    if ob.assuming is not None:
+        checks.append((ob.assuming, spec.assuming.raising, ir.TRUE))
+    for cls, part, r in spec.raises:
+        checks.append((part, r.raising, spec.assuming.holds))
+    for part, raising, context in checks:
+        for o in raising:
+            status, model, _ = solver.check(context, o.guard)
+            if status == z3.sat:
+                inputs = {p.name: solver.value(model, p) for p in ob.params}
+                shown = ", ".join(f"{k}={v!r}" for k, v in inputs.items()
+                                  if k in part.params)
+                text, hint = format_message("spec-raising", role=f"`{part.role}`",
+                                            exception=o.exception.__name__, inputs=shown)
+                return f"{part.path}:{part.line}: {text}", hint
+    return None

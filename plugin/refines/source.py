@@ -1,0 +1,255 @@
+"""Reading a decorated function and its specs from source (astroid).
+
+Runtime objects say *what* was declared (the spec callables, the exception
+classes); the source says *how* it was written (the expressions to
+translate, their lines). This module pairs the two into an ``Obligation``.
+"""
+
+from __future__ import annotations
+
+import builtins
+import os
+from dataclasses import dataclass
+from typing import Callable, Dict, List, Optional, Tuple
+
+import astroid
+from astroid import nodes
+
+from refines import ir
+from refines.declare import SPECS_ATTRIBUTE, Spec, refines
+from refines.errors import SpecError, Untranslatable
+
+_SORTS = {int: ir.INT, bool: ir.BOOL}
+
+
+@dataclass(frozen=True)
+class SpecPart:
+    """One expression of a spec (the relation, the assuming, a raises entry)."""
+
+    role: str  # "relation", "assuming" or "raises <Class>"
+    params: Tuple[str, ...]
+    body: nodes.NodeNG
+    line: int
+    path: str
+    text: str  # the expression as written
+    globals: dict
+    runtime: Callable
+
+
+@dataclass(frozen=True)
+class Obligation:
+    """Everything needed to check one ``@refines`` spec of one function."""
+
+    fn: Callable
+    qualname: str
+    module: str
+    path: str
+    line: int  # line of the @refines decorator
+    fn_node: nodes.FunctionDef
+    params: Tuple[ir.Var, ...]
+    kinds: Tuple[str, ...]  # "positional" / "keyword" per parameter
+    relation: SpecPart
+    assuming: Optional[SpecPart]
+    raises: Tuple[Tuple[type, SpecPart], ...]
+
+    @property
+    def function(self) -> str:
+        return f"{self.module}.{self.qualname}"
+
+    @property
+    def param_names(self) -> Tuple[str, ...]:
+        return tuple(p.name for p in self.params)
+
+
+_MODULE_CACHE: Dict[Tuple[str, int, int], Tuple[nodes.Module, List[bytes]]] = {}
+
+
+def parse_file(path: str) -> Tuple[nodes.Module, List[bytes]]:
+    """Parse a file once per version of it (keyed by mtime and size)."""
+    st = os.stat(path)
+    key = (os.path.abspath(path), st.st_mtime_ns, st.st_size)
+    if key not in _MODULE_CACHE:
+        with open(path, "rb") as fh:
+            raw = fh.read()
+        module = astroid.parse(raw.decode("utf-8"), path=path)
+        _MODULE_CACHE[key] = (module, raw.splitlines())
+    return _MODULE_CACHE[key]
+
+
+def node_text(node: nodes.NodeNG, lines: List[bytes]) -> str:
+    """The source text of ``node`` exactly as written (offsets are UTF-8 bytes)."""
+    try:
+        first, last = node.lineno - 1, node.end_lineno - 1
+        if first == last:
+            chunk = lines[first][node.col_offset:node.end_col_offset]
+        else:
+            parts = [lines[first][node.col_offset:]]
+            parts += lines[first + 1:last]
+            parts.append(lines[last][:node.end_col_offset])
+            chunk = b"\n".join(parts)
+        return chunk.decode("utf-8")
+    except (TypeError, IndexError, UnicodeDecodeError):
+        return node.as_string()
+
+
+def runtime_specs(fn: Callable) -> Tuple[Spec, ...]:
+    """The specs of ``fn`` in source order (top decorator first)."""
+    return tuple(reversed(getattr(fn, SPECS_ATTRIBUTE, ())))
+
+
+def _resolves_to(expr: nodes.NodeNG, globals_: dict, target: object) -> bool:
+    dotted = []
+    cur = expr
+    while isinstance(cur, nodes.Attribute):
+        dotted.append(cur.attrname)
+        cur = cur.expr
+    if not isinstance(cur, nodes.Name):
+        return False
+    obj = globals_.get(cur.name, getattr(builtins, cur.name, None))
+    for attr in reversed(dotted):
+        obj = getattr(obj, attr, None)
+    return obj is target
+
+
+def find_function(fn: Callable, path: str) -> Tuple[nodes.FunctionDef, List[bytes]]:
+    module, lines = parse_file(path)
+    qualname = fn.__qualname__
+    if "." in qualname:
+        raise Untranslatable("nested", fn.__code__.co_firstlineno, {"qualname": qualname})
+    first_line = fn.__code__.co_firstlineno
+    candidates = [n for n in module.body
+                  if isinstance(n, nodes.FunctionDef) and n.name == fn.__name__]
+    for n in candidates:
+        starts = [n.lineno] + [d.lineno for d in (n.decorators.nodes if n.decorators else [])]
+        if first_line in starts:
+            return n, lines
+    if candidates:
+        return candidates[-1], lines
+    raise Untranslatable("statement", first_line, {"construct": "function without source"})
+
+
+def read_obligation(fn: Callable, index: int, path: str, module: str) -> Obligation:
+    """Pair the ``index``-th (0-based, source order) spec of ``fn`` with its source."""
+    fn_node, lines = find_function(fn, path)
+    specs = runtime_specs(fn)
+    globals_ = fn.__globals__
+    decorators = [d for d in (fn_node.decorators.nodes if fn_node.decorators else [])
+                  if isinstance(d, nodes.Call) and _resolves_to(d.func, globals_, refines)]
+    if len(decorators) != len(specs):
+        raise SpecError("spec-decorators", fn_node.lineno, {
+            "runtime": len(specs), "source": len(decorators), "qualname": fn.__qualname__},
+            path=path)
+    call = decorators[index]
+    spec = specs[index]
+    params, kinds = read_params(fn_node, globals_)
+    names = tuple(p.name for p in params)
+
+    if not call.args:
+        raise SpecError("spec-form", call.lineno, {"role": "relation"}, path=path)
+    relation = read_part(call.args[0], spec.relation, "relation", names + ("result",),
+                         "a parameter of the function or `result`", path, lines)
+    keywords = {k.arg: k.value for k in (call.keywords or ())}
+    assuming = None
+    if spec.assuming is not None:
+        assuming = read_part(keywords.get("assuming"), spec.assuming, "assuming",
+                             names, "a parameter of the function", path, lines)
+    raises: List[Tuple[type, SpecPart]] = []
+    if spec.raises:
+        dict_node = keywords.get("raises")
+        if not isinstance(dict_node, nodes.Dict) or len(dict_node.items) != len(spec.raises):
+            raise SpecError("spec-raises", (dict_node or call).lineno, path=path)
+        for (key_node, value_node), (cls, condition) in zip(dict_node.items,
+                                                             spec.raises.items()):
+            raises.append((cls, read_part(
+                value_node, condition, f"raises {cls.__name__}", names,
+                "a parameter of the function", path, lines)))
+    return Obligation(
+        fn=fn, qualname=fn.__qualname__, module=module, path=path, line=call.lineno,
+        fn_node=fn_node, params=params, kinds=kinds, relation=relation,
+        assuming=assuming, raises=tuple(raises))
+
+
+def read_params(fn_node: nodes.FunctionDef, globals_: dict):
+    args = fn_node.args
+    if args.vararg:
+        raise Untranslatable("signature", fn_node.lineno, {"construct": "*" + args.vararg})
+    if args.kwarg:
+        raise Untranslatable("signature", fn_node.lineno, {"construct": "**" + args.kwarg})
+    groups = [(args.posonlyargs or [], args.posonlyargs_annotations or [], "positional"),
+              (args.args or [], args.annotations or [], "positional"),
+              (args.kwonlyargs or [], args.kwonlyargs_annotations or [], "keyword")]
+    params, kinds = [], []
+    for arg_nodes, annotations, kind in groups:
+        for i, arg in enumerate(arg_nodes):
+            ann = annotations[i] if i < len(annotations) else None
+            params.append(ir.Var(arg.name, param_sort(arg.name, ann, globals_, fn_node)))
+            kinds.append(kind)
+    return tuple(params), tuple(kinds)
+
+
+def param_sort(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node) -> str:
+    if ann is None:
+        raise Untranslatable("param-type", fn_node.lineno,
+                             {"name": name, "hint_text": "(none)"})
+    text = ann.value if isinstance(ann, nodes.Const) and isinstance(ann.value, str) \
+        else ann.as_string()
+    for cls, sort in _SORTS.items():
+        if text == cls.__name__ and globals_.get(text, getattr(builtins, text)) is cls:
+            return sort
+    raise Untranslatable("param-type", ann.lineno, {"name": name, "hint_text": text})
+
+
+def read_part(node: Optional[nodes.NodeNG], runtime: Callable, role: str,
+              allowed: Tuple[str, ...], allowed_what: str, path: str,
+              lines: List[bytes]) -> SpecPart:
+    """Find the expression of one spec callable and check its parameter names."""
+    part_path, part_lines = path, lines
+    if isinstance(node, nodes.Lambda):
+        params = [a.name for a in node.args.args or []]
+        body, fn_like = node.body, node
+    else:
+        code = getattr(runtime, "__code__", None)
+        if code is None:
+            raise SpecError("spec-form", getattr(node, "lineno", 0), {"role": role}, path=path)
+        part_path = code.co_filename
+        module, part_lines = parse_file(part_path)
+        fn_like = _find_callable(module, code)
+        if fn_like is None:
+            raise SpecError("spec-form", code.co_firstlineno, {"role": role}, path=part_path)
+        params = [a.name for a in fn_like.args.args or []]
+        body = fn_like.body if isinstance(fn_like, nodes.Lambda) else _single_return(fn_like)
+        if body is None:
+            raise SpecError("spec-form", fn_like.lineno, {"role": role}, path=part_path)
+    a = fn_like.args
+    if a.vararg or a.kwarg or a.kwonlyargs or a.posonlyargs:
+        raise SpecError("spec-form", fn_like.lineno, {"role": role}, path=part_path)
+    for name in params:
+        if name not in allowed:
+            raise SpecError("spec-names", fn_like.lineno, {
+                "role": role, "name": name, "allowed_what": allowed_what,
+                "allowed": ", ".join(allowed)}, path=part_path)
+    return SpecPart(role=role, params=tuple(params), body=body, line=body.lineno,
+                    path=part_path, text=node_text(body, part_lines),
+                    globals=getattr(runtime, "__globals__", {}), runtime=runtime)
+
+
+def _find_callable(module: nodes.Module, code):
+    line = code.co_firstlineno
+    if code.co_name == "<lambda>":
+        found = [n for n in module.nodes_of_class(nodes.Lambda) if n.lineno == line]
+        return found[0] if len(found) == 1 else None
+    for n in module.nodes_of_class(nodes.FunctionDef):
+        starts = [n.lineno] + [d.lineno for d in (n.decorators.nodes if n.decorators else [])]
+        if n.name == code.co_name and line in starts:
+            return n
+    return None
+
+
+def _single_return(fn_node: nodes.FunctionDef) -> Optional[nodes.NodeNG]:
+    body = list(fn_node.body)
+    if body and isinstance(body[0], nodes.Expr) and isinstance(body[0].value, nodes.Const) \
+            and isinstance(body[0].value.value, str):
+        body = body[1:]
+    if len(body) == 1 and isinstance(body[0], nodes.Return) and body[0].value is not None:
+        return body[0].value
+    return None

@@ -1,0 +1,703 @@
+"""Translating Python (astroid nodes) into before/after relations.
+
+The translator executes the body symbolically, one statement after another,
+keeping
+
+* ``env``: the current value of every local, as a term over the parameters;
+* ``live``: the condition under which execution reaches the current point;
+* ``outcomes``: every way the body has ended so far (returned a value or raised
+  an exception), each guarded by the condition under which it happens.
+
+Statements are handled by the laws of the refinement calculus: an assignment
+substitutes the new value into later uses (the substitution law), a sequence
+threads the environment through, and an ``if`` runs both branches and merges
+their environments into if-then-else terms -- so the formula grows linearly
+with the number of sequential ``if`` statements, with no path enumeration.
+
+Every operation that Python can make raise (``//`` by zero, a failing
+``assert``, unpacking the wrong number of values, ...) adds a raising outcome
+and narrows ``live``, so the guards of a behaviour's outcomes are disjoint and
+cover all pre-states.
+
+One visitor method per node kind; anything else raises ``Untranslatable``,
+the only road to an ``unknown`` verdict.
+"""
+
+from __future__ import annotations
+
+import builtins
+from dataclasses import dataclass
+from typing import Callable, Dict, List, Optional, Sequence, Tuple
+
+import astroid
+from astroid import nodes
+
+from refines import ir
+from refines.errors import SpecError, Untranslatable
+
+# Python statement keywords for the node kinds we do not translate yet.
+_STATEMENT_NAMES = {
+    "For": "for", "AsyncFor": "async for", "While": "while", "Try": "try",
+    "TryStar": "try", "With": "with", "AsyncWith": "async with",
+    "Import": "import", "ImportFrom": "from ... import", "Delete": "del",
+    "Global": "global", "Nonlocal": "nonlocal", "FunctionDef": "def",
+    "AsyncFunctionDef": "async def", "ClassDef": "class", "Match": "match",
+    "Break": "break", "Continue": "continue",
+}
+_EXPRESSION_NAMES = {
+    "ListComp": "list comprehension", "SetComp": "set comprehension",
+    "DictComp": "dict comprehension", "GeneratorExp": "generator expression",
+    "Lambda": "lambda", "JoinedStr": "f-string", "Attribute": "attribute access",
+    "List": "list display", "Set": "set display", "Dict": "dict display",
+    "NamedExpr": "assignment expression (:=)", "Await": "await",
+    "Yield": "yield", "YieldFrom": "yield from", "Starred": "starred",
+    "Slice": "slice",
+}
+
+_CMP = {"<", "<=", ">", ">=", "==", "!="}
+_MAX_POWER = 64
+
+
+@dataclass
+class MaybeUnbound:
+    """A local assigned on some paths only: reading it where ``bound`` is false
+    raises UnboundLocalError, as Python does."""
+
+    value: ir.Value
+    bound: ir.Term
+
+
+@dataclass
+class Conflict:
+    """A local whose shape differs between paths; an error only if read."""
+
+    shapes: str
+
+
+def shape(v: ir.Value) -> str:
+    if isinstance(v, ir.Tup):
+        return "tuple(" + ", ".join(shape(i) for i in v.items) + ")"
+    if v is ir.NONE:
+        return "None"
+    return "int/bool"
+
+
+def merge(cond: ir.Term, a, b):
+    """The value that is ``a`` where ``cond`` holds and ``b`` elsewhere."""
+    if a is b:
+        return a
+    if isinstance(a, Conflict) or isinstance(b, Conflict):
+        return a if isinstance(a, Conflict) else b
+    if isinstance(a, MaybeUnbound) or isinstance(b, MaybeUnbound):
+        av, ab = (a.value, a.bound) if isinstance(a, MaybeUnbound) else (a, ir.TRUE)
+        bv, bb = (b.value, b.bound) if isinstance(b, MaybeUnbound) else (b, ir.TRUE)
+        return MaybeUnbound(merge(cond, av, bv), ir.ite(cond, ab, bb))
+    if isinstance(a, ir.Term) and isinstance(b, ir.Term):
+        return ir.ite(cond, a, b)
+    if isinstance(a, ir.Tup) and isinstance(b, ir.Tup) and len(a.items) == len(b.items):
+        items = tuple(merge(cond, x, y) for x, y in zip(a.items, b.items))
+        if any(isinstance(i, Conflict) for i in items):
+            return Conflict(f"{shape(a)} and {shape(b)}")
+        return ir.Tup(items)
+    if a is ir.NONE and b is ir.NONE:
+        return ir.NONE
+    return Conflict(f"{shape(a)} and {shape(b)}")
+
+
+def truthy(v: ir.Value) -> ir.Term:
+    """Python's truth value of ``v``."""
+    if isinstance(v, ir.Tup):
+        return ir.const(bool(v.items))
+    if v is ir.NONE:
+        return ir.FALSE
+    if v.sort == ir.BOOL:
+        return v
+    return ir.cmp("!=", v, ir.const(0))
+
+
+class Scope:
+    """What names mean where an expression is read."""
+
+    def __init__(self, globals_: dict, locals_: Sequence[str] = ()) -> None:
+        self.globals = globals_
+        # Names assigned anywhere in the function are local throughout it.
+        self.function_locals = set(locals_)
+
+    def global_value(self, name: str, line: int):
+        if name in self.globals:
+            value = self.globals[name]
+        elif hasattr(builtins, name):
+            value = getattr(builtins, name)
+        else:
+            raise Untranslatable("name", line, {"name": name})
+        # Python's bool is an int subclass; both are modelled exactly.
+        if isinstance(value, (bool, int)):
+            return ir.const(value)
+        if value is None:
+            return ir.NONE
+        raise Untranslatable("name", line, {"name": name})
+
+    def is_old(self, func: nodes.NodeNG) -> bool:
+        """Whether ``func`` names ``refines.old`` (by name or as ``refines.old``)."""
+        from refines.declare import old
+
+        if isinstance(func, nodes.Name):
+            return (func.name not in self.function_locals
+                    and self.globals.get(func.name) is old)
+        if isinstance(func, nodes.Attribute) and func.attrname == "old":
+            base = func.expr
+            return (isinstance(base, nodes.Name)
+                    and getattr(self.globals.get(base.name), "old", None) is old)
+        return False
+
+    def is_builtin(self, name: str, fn) -> bool:
+        return (name not in self.function_locals
+                and self.globals.get(name, getattr(builtins, name, None)) is fn)
+
+
+class Translator:
+    """Symbolic execution of one body or spec expression."""
+
+    def __init__(self, scope: Scope, env: Dict[str, ir.Value],
+                 old_env: Optional[Dict[str, ir.Value]] = None,
+                 role: str = "body") -> None:
+        self.scope = scope
+        self.env: Dict[str, object] = dict(env)
+        self.old_env = old_env  # set only while reading a relation
+        self.role = role
+        self.live: ir.Term = ir.TRUE
+        self.outcomes: List[ir.Outcome] = []
+
+    # ------------------------------------------------------------ outcomes
+
+    def raise_when(self, cond: ir.Term, exc: type, line: int, cause: str) -> None:
+        """Python raises ``exc`` here exactly when ``cond`` holds."""
+        guard = ir.and_(self.live, cond)
+        if ir.is_false(guard):
+            return
+        self.outcomes.append(ir.Outcome(guard, exception=exc, line=line, cause=cause))
+        self.live = ir.and_(self.live, ir.not_(cond))
+
+    def finish(self, value: ir.Value, line: int) -> None:
+        if not ir.is_false(self.live):
+            self.outcomes.append(ir.Outcome(self.live, value=value, line=line))
+        self.live = ir.FALSE
+
+    # ------------------------------------------------------------ statements
+
+    def block(self, body: Sequence[nodes.NodeNG]) -> None:
+        for stmt in body:
+            if ir.is_false(self.live):
+                return  # the rest is unreachable: Python never runs it
+            self.statement(stmt)
+
+    def statement(self, node: nodes.NodeNG) -> None:
+        method = getattr(self, "stmt_" + type(node).__name__, None)
+        if method is None:
+            kind = type(node).__name__
+            raise Untranslatable("statement", node.lineno,
+                                 {"construct": _STATEMENT_NAMES.get(kind, kind)})
+        method(node)
+
+    def stmt_Pass(self, node: nodes.Pass) -> None:
+        pass
+
+    def stmt_Expr(self, node: nodes.Expr) -> None:
+        if isinstance(node.value, nodes.Const) and isinstance(node.value.value, str):
+            return  # a docstring or a bare string: no effect
+        self.expr(node.value)
+
+    def stmt_Assign(self, node: nodes.Assign) -> None:
+        value = self.expr(node.value)
+        for target in node.targets:
+            self.assign(target, value)
+
+    def stmt_AnnAssign(self, node: nodes.AnnAssign) -> None:
+        if node.value is not None:
+            self.assign(node.target, self.expr(node.value))
+
+    def stmt_AugAssign(self, node: nodes.AugAssign) -> None:
+        if not isinstance(node.target, nodes.AssignName):
+            raise Untranslatable("expression", node.lineno,
+                                 {"construct": node.target.as_string() + " " + node.op})
+        current = self.read(node.target.name, node.lineno)
+        value = self.binop(node.op[:-1], current, self.expr(node.value), node)
+        self.assign(node.target, value)
+
+    def assign(self, target: nodes.NodeNG, value: ir.Value) -> None:
+        if isinstance(target, nodes.AssignName):
+            self.env[target.name] = value
+            return
+        if isinstance(target, (nodes.Tuple, nodes.List)):
+            if any(isinstance(e, nodes.Starred) for e in target.elts):
+                raise Untranslatable("expression", target.lineno,
+                                     {"construct": "starred assignment"})
+            if not isinstance(value, ir.Tup):
+                self.raise_when(ir.TRUE, TypeError, target.lineno,
+                                "cannot unpack a non-iterable value")
+                return
+            if len(value.items) != len(target.elts):
+                self.raise_when(ir.TRUE, ValueError, target.lineno,
+                                f"unpacking {len(value.items)} values into "
+                                f"{len(target.elts)} names")
+                return
+            for elt, item in zip(target.elts, value.items):
+                self.assign(elt, item)
+            return
+        raise Untranslatable("expression", target.lineno,
+                             {"construct": "assignment to " + target.as_string()})
+
+    def stmt_Return(self, node: nodes.Return) -> None:
+        value = ir.NONE if node.value is None else self.expr(node.value)
+        self.finish(value, node.lineno)
+
+    def stmt_Raise(self, node: nodes.Raise) -> None:
+        if node.exc is None:
+            raise Untranslatable("statement", node.lineno, {"construct": "bare raise"})
+        exc_node = node.exc
+        args: Sequence[nodes.NodeNG] = ()
+        if isinstance(exc_node, nodes.Call):
+            args = list(exc_node.args) + [k.value for k in exc_node.keywords or ()]
+            exc_node = exc_node.func
+        cls = self.exception_class(exc_node)
+        for arg in args:
+            self.harmless(arg)
+        self.raise_when(ir.TRUE, cls, node.lineno, node.as_string())
+
+    def stmt_Assert(self, node: nodes.Assert) -> None:
+        ok = truthy(self.expr(node.test))
+        if node.fail is not None:
+            self.harmless(node.fail)
+        self.raise_when(ir.not_(ok), AssertionError, node.lineno,
+                        "assert " + node.test.as_string())
+
+    def stmt_If(self, node: nodes.If) -> None:
+        cond = truthy(self.expr(node.test))
+        self.branches(cond, lambda: self.block(node.body),
+                      lambda: self.block(node.orelse))
+
+    def branches(self, cond: ir.Term, then: Callable[[], object],
+                 orelse: Callable[[], object]):
+        """Run both branches from the current state and merge them."""
+        start_env, start_live, start_count = self.env, self.live, len(self.outcomes)
+
+        self.env, self.live = dict(start_env), ir.and_(start_live, cond)
+        then_value = then()
+        then_env, then_live = self.env, self.live
+        then_ended = len(self.outcomes) != start_count
+
+        mid_count = len(self.outcomes)
+        self.env, self.live = dict(start_env), ir.and_(start_live, ir.not_(cond))
+        else_value = orelse()
+        else_env, else_live = self.env, self.live
+        else_ended = len(self.outcomes) != mid_count
+
+        if not then_ended and not else_ended:
+            self.live = start_live  # neither branch can end early
+        else:
+            self.live = ir.or_(then_live, else_live)
+        merged = {}
+        for name in set(then_env) | set(else_env):
+            if name in then_env and name in else_env:
+                merged[name] = merge(cond, then_env[name], else_env[name])
+            elif name in then_env:
+                merged[name] = merge(cond, then_env[name], MaybeUnbound(ir.NONE, ir.FALSE))
+            else:
+                merged[name] = merge(cond, MaybeUnbound(ir.NONE, ir.FALSE), else_env[name])
+        self.env = merged
+        return then_value, else_value
+
+    # ------------------------------------------------------------ expressions
+
+    def expr(self, node: nodes.NodeNG) -> ir.Value:
+        method = getattr(self, "expr_" + type(node).__name__, None)
+        if method is None:
+            kind = type(node).__name__
+            raise Untranslatable("expression", node.lineno,
+                                 {"construct": _EXPRESSION_NAMES.get(kind, kind)})
+        return method(node)
+
+    def expr_Const(self, node: nodes.Const) -> ir.Value:
+        if node.value is None:
+            return ir.NONE
+        if isinstance(node.value, (bool, int)):
+            return ir.const(node.value)
+        raise Untranslatable("value", node.lineno,
+                             {"construct": node.as_string(),
+                              "type": type(node.value).__name__})
+
+    def expr_Name(self, node: nodes.Name) -> ir.Value:
+        return self.read(node.name, node.lineno)
+
+    def read(self, name: str, line: int) -> ir.Value:
+        if name in self.env:
+            value = self.env[name]
+            if isinstance(value, Conflict):
+                raise Untranslatable("mixed", line,
+                                     {"construct": name, "shapes": value.shapes})
+            if isinstance(value, MaybeUnbound):
+                self.raise_when(ir.not_(value.bound), UnboundLocalError, line,
+                                f"`{name}` is read before it is assigned")
+                return value.value
+            return value
+        if name in self.scope.function_locals:
+            self.raise_when(ir.TRUE, UnboundLocalError, line,
+                            f"`{name}` is read before it is assigned")
+            return ir.NONE
+        return self.scope.global_value(name, line)
+
+    def expr_Tuple(self, node: nodes.Tuple) -> ir.Value:
+        if any(isinstance(e, nodes.Starred) for e in node.elts):
+            raise Untranslatable("expression", node.lineno, {"construct": "starred"})
+        return ir.Tup(tuple(self.expr(e) for e in node.elts))
+
+    def expr_UnaryOp(self, node: nodes.UnaryOp) -> ir.Value:
+        operand = self.expr(node.operand)
+        if node.op == "not":
+            return ir.not_(truthy(operand))
+        operand = self.scalar(operand, node, node.op)
+        if node.op == "-":
+            return ir.neg(operand)
+        if node.op == "+":
+            return ir.as_int(operand)
+        if node.op == "~":  # ~x == -x - 1 for Python's unbounded ints
+            return ir.arith("-", ir.neg(operand), ir.const(1))
+        raise Untranslatable("operator", node.lineno,
+                             {"op": node.op, "types": "int", "hint": ""})
+
+    def expr_BinOp(self, node: nodes.BinOp) -> ir.Value:
+        left = self.expr(node.left)
+        right = self.expr(node.right)
+        return self.binop(node.op, left, right, node)
+
+    def binop(self, op: str, left: ir.Value, right: ir.Value,
+              node: nodes.NodeNG) -> ir.Value:
+        if isinstance(left, ir.Tup) or isinstance(right, ir.Tup):
+            return self.tuple_binop(op, left, right, node)
+        left = self.scalar(left, node, op)
+        right = self.scalar(right, node, op)
+        if op in ("+", "-", "*"):
+            return ir.arith(op, left, right)
+        if op in ("//", "%"):
+            # Python raises where the solver's division is merely unconstrained.
+            self.raise_when(ir.cmp("==", right, ir.const(0)), ZeroDivisionError,
+                            node.lineno, "integer division or modulo by zero")
+            return ir.arith(op, left, right)
+        if op == "**":
+            return self.power(left, right, node)
+        if op in ("&", "|", "^") and left.sort == ir.BOOL and right.sort == ir.BOOL:
+            if op == "&":
+                return ir.and_(left, right)
+            if op == "|":
+                return ir.or_(left, right)
+            return ir.cmp("!=", left, right)
+        if op == "/":
+            raise Untranslatable("operator", node.lineno, {
+                "op": "/", "types": "int operands",
+                "hint": "true division returns a float, which is not modelled yet; "
+                        "use // for floor division"})
+        raise Untranslatable("operator", node.lineno, {
+            "op": op, "types": "int operands",
+            "hint": "bitwise and shift operators on ints are not modelled yet"})
+
+    def power(self, base: ir.Term, exponent: ir.Term, node: nodes.NodeNG) -> ir.Term:
+        if not (isinstance(exponent, ir.Const) and 0 <= exponent.value <= _MAX_POWER):
+            raise Untranslatable("power", node.lineno, {"construct": node.as_string()})
+        # Square-and-multiply keeps the term small and shares the squares.
+        result: ir.Term = ir.const(1)
+        square, e = ir.as_int(base), int(exponent.value)
+        while e:
+            if e & 1:
+                result = ir.arith("*", result, square)
+            e >>= 1
+            if e:
+                square = ir.arith("*", square, square)
+        return result
+
+    def tuple_binop(self, op, left, right, node) -> ir.Value:
+        if op == "+" and isinstance(left, ir.Tup) and isinstance(right, ir.Tup):
+            return ir.Tup(left.items + right.items)
+        if op == "*":
+            tup, count = (left, right) if isinstance(left, ir.Tup) else (right, left)
+            if isinstance(count, ir.Const) and count.sort == ir.INT:
+                return ir.Tup(tup.items * max(count.value, 0))
+        raise Untranslatable("operator", node.lineno, {
+            "op": op, "types": "tuples",
+            "hint": "tuples support + with a tuple and * by a constant int"})
+
+    def scalar(self, v: ir.Value, node: nodes.NodeNG, op: str) -> ir.Term:
+        if isinstance(v, ir.Term):
+            return v
+        # Python raises TypeError for arithmetic or ordering on None, and for
+        # mixing a tuple with an int: an outcome like any other. The value
+        # returned is never used, since nothing runs after the raise.
+        kind = "None" if v is ir.NONE else "a tuple"
+        self.raise_when(ir.TRUE, TypeError, node.lineno,
+                        f"`{op}` is not defined for {kind} in Python")
+        return ir.const(0)
+
+    def expr_BoolOp(self, node: nodes.BoolOp) -> ir.Value:
+        return self.boolop(node.op, list(node.values), node)
+
+    def boolop(self, op: str, values: list, node: nodes.BoolOp) -> ir.Value:
+        # `a and b` is `a` if `a` is falsy, else `b`; `b` runs only when needed.
+        first = self.expr(values[0])
+        if len(values) == 1:
+            return first
+        t = truthy(first)
+        stop = ir.not_(t) if op == "and" else t
+        a, b = self.branches(stop, lambda: first,
+                             lambda: self.boolop(op, values[1:], node))
+        return self.merged(stop, a, b, node)
+
+    def merged(self, cond: ir.Term, a: ir.Value, b: ir.Value, node) -> ir.Value:
+        value = merge(cond, a, b)
+        if isinstance(value, Conflict):
+            raise Untranslatable("mixed", node.lineno,
+                                 {"construct": node.as_string(), "shapes": value.shapes})
+        return value
+
+    def expr_IfExp(self, node: nodes.IfExp) -> ir.Value:
+        cond = truthy(self.expr(node.test))
+        a, b = self.branches(cond, lambda: self.expr(node.body),
+                             lambda: self.expr(node.orelse))
+        return self.merged(cond, a, b, node)
+
+    def expr_Compare(self, node: nodes.Compare) -> ir.Value:
+        # `a < b < c` is `a < b and b < c` with b evaluated once, and only
+        # while the chain has held so far.
+        left = self.expr(node.left)
+        holds: Optional[ir.Term] = None
+        for op, right_node in node.ops:
+            if holds is None:
+                right = self.expr(right_node)
+                holds = self.compare(op, left, right, node)
+            else:
+                seen = {}
+
+                def link(op=op, right_node=right_node, left=left):
+                    seen["right"] = self.expr(right_node)
+                    return self.compare(op, left, seen["right"], node)
+
+                rest, _ = self.branches(holds, link, lambda: ir.FALSE)
+                right = seen["right"]
+                holds = ir.and_(holds, rest)
+            left = right
+        return holds
+
+    def compare(self, op: str, a: ir.Value, b: ir.Value, node) -> ir.Term:
+        if op in ("is", "is not"):
+            if a is ir.NONE or b is ir.NONE:
+                same = ir.const(a is b)
+                return same if op == "is" else ir.not_(same)
+            raise Untranslatable("operator", node.lineno, {
+                "op": op, "types": "ints",
+                "hint": "`is` between ints depends on object identity; use =="})
+        if op in ("in", "not in"):
+            if not isinstance(b, ir.Tup):
+                raise Untranslatable("operator", node.lineno, {
+                    "op": op, "types": "this right-hand side",
+                    "hint": "`in` is modelled for tuples"})
+            found = ir.or_(*(self.equal(a, item) for item in b.items))
+            return found if op == "in" else ir.not_(found)
+        if op in ("==", "!="):
+            same = self.equal(a, b)
+            return same if op == "==" else ir.not_(same)
+        if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
+            return self.lexicographic(op, list(a.items), list(b.items), node)
+        return ir.cmp(op, self.scalar(a, node, op), self.scalar(b, node, op))
+
+    def equal(self, a: ir.Value, b: ir.Value) -> ir.Term:
+        if isinstance(a, ir.Term) and isinstance(b, ir.Term):
+            return ir.cmp("==", a, b)
+        if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
+            if len(a.items) != len(b.items):
+                return ir.FALSE
+            return ir.and_(*(self.equal(x, y) for x, y in zip(a.items, b.items)))
+        return ir.const(a is b)  # None == None; None is unequal to ints and tuples
+
+    def lexicographic(self, op, a, b, node) -> ir.Term:
+        # Sequence comparison (Language Reference, "Value comparisons"): the
+        # first unequal pair decides; if one is a prefix, the shorter is less.
+        if not a or not b:
+            la, lb = len(a), len(b)
+            return ir.const({"<": la < lb, "<=": la <= lb, ">": la > lb,
+                             ">=": la >= lb}[op])
+        strict = "<" if op in ("<", "<=") else ">"
+        return ir.or_(self.compare(strict, a[0], b[0], node),
+                      ir.and_(self.equal(a[0], b[0]),
+                              self.lexicographic(op, a[1:], b[1:], node)))
+
+    def expr_Subscript(self, node: nodes.Subscript) -> ir.Value:
+        container = self.expr(node.value)
+        if not isinstance(container, ir.Tup):
+            raise Untranslatable("expression", node.lineno,
+                                 {"construct": "subscript of a non-tuple"})
+        if isinstance(node.slice, nodes.Slice):
+            bounds = []
+            for part in (node.slice.lower, node.slice.upper, node.slice.step):
+                if part is None:
+                    bounds.append(None)
+                    continue
+                v = self.expr(part)
+                if not isinstance(v, ir.Const):
+                    raise Untranslatable("expression", node.lineno,
+                                         {"construct": "tuple slice with variable bounds"})
+                bounds.append(int(v.value))
+            if bounds[2] == 0:
+                self.raise_when(ir.TRUE, ValueError, node.lineno, "slice step cannot be zero")
+                return ir.Tup(())
+            return ir.Tup(container.items[slice(*bounds)])
+        index = self.scalar(self.expr(node.slice), node, "[]")
+        n = len(container.items)
+        if isinstance(index, ir.Const):
+            if -n <= index.value < n:
+                return container.items[int(index.value)]
+            self.raise_when(ir.TRUE, IndexError, node.lineno, "tuple index out of range")
+            return ir.NONE
+        in_range = ir.and_(ir.cmp(">=", index, ir.const(-n)), ir.cmp("<", index, ir.const(n)))
+        self.raise_when(ir.not_(in_range), IndexError, node.lineno,
+                        "tuple index out of range")
+        value = container.items[n - 1]
+        for i in range(n - 2, -1, -1):
+            hit = ir.or_(ir.cmp("==", index, ir.const(i)), ir.cmp("==", index, ir.const(i - n)))
+            value = merge(hit, container.items[i], value)
+        if isinstance(value, Conflict):
+            raise Untranslatable("mixed", node.lineno,
+                                 {"construct": node.as_string(), "shapes": value.shapes})
+        return value
+
+    def expr_Call(self, node: nodes.Call) -> ir.Value:
+        func = node.func
+        name = func.name if isinstance(func, nodes.Name) else None
+        if self.scope.is_old(func):
+            if self.old_env is None or len(node.args) != 1 or node.keywords:
+                raise SpecError("spec-old", node.lineno)
+            inner = Translator(self.scope, self.old_env, None, self.role)
+            inner.live = self.live
+            value = inner.expr(node.args[0])
+            self.outcomes.extend(inner.outcomes)
+            self.live = inner.live
+            return value
+        if node.keywords or any(isinstance(a, nodes.Starred) for a in node.args):
+            raise Untranslatable("call", node.lineno, {"callee": func.as_string()})
+        for builtin_name, handler in (("abs", self.call_abs), ("min", self.call_minmax),
+                                      ("max", self.call_minmax), ("int", self.call_int),
+                                      ("bool", self.call_bool)):
+            if name == builtin_name and self.scope.is_builtin(name, getattr(builtins, name)):
+                args = [self.expr(a) for a in node.args]
+                result = handler(name, args, node)
+                if result is not None:
+                    return result
+        raise Untranslatable("call", node.lineno, {"callee": func.as_string()})
+
+    def call_abs(self, name, args, node):
+        if len(args) == 1 and isinstance(args[0], ir.Term):
+            x = ir.as_int(args[0])
+            return ir.ite(ir.cmp("<", x, ir.const(0)), ir.neg(x), x)
+        return None
+
+    def call_minmax(self, name, args, node):
+        if len(args) < 2 or not all(isinstance(a, ir.Term) for a in args):
+            return None
+        # CPython keeps the first extreme item: replace only on strict improvement.
+        op = "<" if name == "min" else ">"
+        best = args[0]
+        for a in args[1:]:
+            best = ir.ite(ir.cmp(op, a, best), a, best)
+        return best
+
+    def call_int(self, name, args, node):
+        if len(args) == 1 and isinstance(args[0], ir.Term):
+            return ir.as_int(args[0])
+        return None
+
+    def call_bool(self, name, args, node):
+        if len(args) == 1:
+            return truthy(args[0])
+        if not args:
+            return ir.FALSE
+        return None
+
+    # ------------------------------------------------------------ helpers
+
+    def exception_class(self, node: nodes.NodeNG) -> type:
+        """The exception class a ``raise`` names, looked up as Python would."""
+        dotted = []
+        cur = node
+        while isinstance(cur, nodes.Attribute):
+            dotted.append(cur.attrname)
+            cur = cur.expr
+        if not isinstance(cur, nodes.Name) or cur.name in self.scope.function_locals:
+            raise Untranslatable("statement", node.lineno,
+                                 {"construct": "raise " + node.as_string()})
+        obj = self.scope.globals.get(cur.name, getattr(builtins, cur.name, None))
+        for attr in reversed(dotted):
+            obj = getattr(obj, attr, None)
+        if not (isinstance(obj, type) and issubclass(obj, BaseException)):
+            raise Untranslatable("statement", node.lineno,
+                                 {"construct": "raise " + node.as_string()})
+        return obj
+
+    def harmless(self, node: nodes.NodeNG) -> None:
+        """Accept exception messages that cannot raise while being built."""
+        if isinstance(node, nodes.Const):
+            return
+        if isinstance(node, nodes.Name) and (
+                (node.name in self.env and not isinstance(self.env[node.name], MaybeUnbound))
+                or (node.name not in self.scope.function_locals
+                    and (node.name in self.scope.globals or hasattr(builtins, node.name)))):
+            return
+        if isinstance(node, nodes.JoinedStr):
+            for part in node.values:
+                if isinstance(part, nodes.FormattedValue):
+                    if part.format_spec is not None:
+                        break
+                    try:
+                        self.harmless(part.value)
+                    except Untranslatable:
+                        break
+            else:
+                return
+        raise Untranslatable("expression", node.lineno,
+                             {"construct": "exception message " + node.as_string()})
+
+
+# ---------------------------------------------------------------- entry points
+
+
+def translate_body(fn_node: nodes.FunctionDef, params: Sequence[ir.Var],
+                   scope: Scope) -> ir.Behaviour:
+    """The behaviour of a function body over its parameters."""
+    env = {p.name: p for p in params}
+    t = Translator(scope, env, role="body")
+    t.block(fn_node.body)
+    last = fn_node.body[-1] if fn_node.body else fn_node
+    t.finish(ir.NONE, getattr(last, "end_lineno", None) or fn_node.lineno)
+    return ir.Behaviour(tuple(params), tuple(t.outcomes))
+
+
+@dataclass
+class SpecValue:
+    """A spec expression read in one state: its truth, and where it raises."""
+
+    holds: ir.Term  # truth value where it does not raise
+    defined: ir.Term  # where evaluating it does not raise
+    raising: Tuple[ir.Outcome, ...]
+
+
+def translate_spec(body: nodes.NodeNG, env: Dict[str, ir.Value], scope: Scope,
+                   role: str, old_env: Optional[Dict[str, ir.Value]] = None) -> SpecValue:
+    t = Translator(scope, env, old_env=old_env, role=role)
+    value = t.expr(body)
+    if isinstance(value, ir.Tup) or value is ir.NONE:
+        raise SpecError("spec-value", body.lineno,
+                        {"role": role, "construct": body.as_string()})
+    return SpecValue(holds=ir.and_(t.live, truthy(value)), defined=t.live,
+                     raising=tuple(t.outcomes))
+
+
+def parse_expression(text: str) -> nodes.NodeNG:
+    """Parse a standalone Python expression (used to re-check printed output)."""
+    module = astroid.parse("__refines_expr__ = (" + text + ")\n")
+    return module.body[0].value
