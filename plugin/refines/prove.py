@@ -275,3 +275,41 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
                                             exception=o.exception.__name__, inputs=shown)
                 return f"{part.path}:{part.line}: {text}", hint
     return None
+
+
+def check_function(fn, index: int, path: str, module: str, timeout: float,
+                   display_path: Optional[str] = None) -> Result:
+    """Read the ``index``-th spec of ``fn`` from source and check it."""
+    from refines.source import read_obligation
+
+    start = time.perf_counter()
+    shown = display_path or path
+    base = Result(verdict=ERROR, function=f"{module}.{fn.__qualname__}", path=shown,
+                  line=fn.__code__.co_firstlineno)
+    try:
+        ob = read_obligation(fn, index, path, module)
+    except Untranslatable as exc:
+        base.verdict = UNKNOWN
+        base.reason = f"not translated: {exc.text} ({shown}:{exc.line})"
+        base.hint = exc.hint
+    except SpecError as exc:
+        base.reason = f"{_display(exc.path, path, shown)}:{exc.line}: {exc.text}"
+        base.hint = exc.hint
+    except Exception as exc:  # noqa: BLE001 -- never crash the session
+        base.reason = (f"internal error while reading the spec of {base.function} "
+                       f"({shown}:{base.line}): {type(exc).__name__}: {exc}")
+        base.notes.append(traceback.format_exc())
+    else:
+        result = check(ob, timeout)
+        result.path = shown
+        result.reason = result.reason and result.reason.replace(path, shown)
+        if result.counterexample is not None:
+            result.counterexample.violated_at = result.counterexample.violated_at.replace(
+                path, shown)
+        return result
+    base.seconds = time.perf_counter() - start
+    return base
+
+
+def _display(p: Optional[str], path: str, shown: str) -> str:
+    return shown if p in (None, path) else p

@@ -1,0 +1,113 @@
+"""pytest collectors and items: one item per obligation.
+
+Collection imports the user's module (as pytest imports test modules) and
+reads the specs from the function objects; it does not parse or solve, so
+it stays fast. Everything heavy happens in ``runtest``.
+"""
+
+from __future__ import annotations
+
+import inspect
+from pathlib import Path
+from typing import Callable, Iterator, List, Optional
+
+import pytest
+
+from refines.declare import SPECS_ATTRIBUTE
+
+
+class RefinesFailure(Exception):
+    """Raised by an item whose verdict fails; carries the result."""
+
+    def __init__(self, result) -> None:
+        super().__init__(result.verdict)
+        self.result = result
+
+
+def specced_functions(module) -> List[Callable]:
+    """Functions of ``module`` (and methods of its classes) that carry specs."""
+    found = []
+    for obj in list(vars(module).values()):
+        candidates = [obj]
+        if inspect.isclass(obj) and obj.__module__ == module.__name__:
+            candidates = [inspect.unwrap(getattr(v, "__func__", v)) for v in vars(obj).values()]
+        for fn in candidates:
+            if (inspect.isfunction(fn) and getattr(fn, SPECS_ATTRIBUTE, None)
+                    and fn.__module__ == module.__name__ and fn not in found):
+                found.append(fn)
+    found.sort(key=lambda f: f.__code__.co_firstlineno)
+    return found
+
+
+class RefinesFile(pytest.File):
+    """A source file under the refines paths."""
+
+    def collect(self) -> Iterator[pytest.Item]:
+        from _pytest.pathlib import import_path
+
+        try:
+            module = import_path(
+                self.path, mode=self.config.getoption("importmode"),
+                root=self.config.rootpath,
+                consider_namespace_packages=self.config.getini("consider_namespace_packages"))
+        except Exception as exc:  # noqa: BLE001 -- report, do not crash the session
+            raise self.CollectError(
+                f"refines: could not import {self.path} to read its specs:\n"
+                f"  {type(exc).__name__}: {exc}\n"
+                f"Hint: the file must import cleanly (as a test module would).") from exc
+        for fn in specced_functions(module):
+            count = len(getattr(fn, SPECS_ATTRIBUTE))
+            for index in range(count):
+                name = fn.__qualname__ if index == 0 else f"{fn.__qualname__}[{index + 1}]"
+                yield RefinesItem.from_parent(self, name=name, fn=fn, index=index,
+                                              module_name=module.__name__)
+
+
+class RefinesItem(pytest.Item):
+    """One obligation: one ``@refines`` spec of one function."""
+
+    def __init__(self, *, fn: Callable, index: int, module_name: str, **kwargs) -> None:
+        super().__init__(**kwargs)
+        self.fn = fn
+        self.index = index
+        self.module_name = module_name
+        self.result = None
+
+    def runtest(self) -> None:
+        from refines.plugin import USER_PROPERTY, timeout_of
+        from refines.prove import check_function
+        from refines.verdict import ERROR, REFUTED, TESTED, UNKNOWN
+
+        result = check_function(self.fn, self.index, str(self.path), self.module_name,
+                                timeout_of(self.config), display_path=self.rel_path)
+        self.result = result
+        self.user_properties.append((USER_PROPERTY, result.to_json(self.nodeid,
+                                                                   self.rel_path)))
+        strict = self.config.getoption("refines_strict")
+        if result.verdict in (REFUTED, ERROR):
+            raise RefinesFailure(result)
+        if result.verdict in (TESTED, UNKNOWN) and strict:
+            raise RefinesFailure(result)
+        if result.verdict == UNKNOWN:
+            from refines.report import one_line
+
+            pytest.skip(one_line(result))
+
+    @property
+    def rel_path(self) -> str:
+        try:
+            return Path(self.path).resolve().relative_to(self.config.rootpath).as_posix()
+        except ValueError:
+            return str(self.path)
+
+    def repr_failure(self, excinfo, style=None):
+        if isinstance(excinfo.value, RefinesFailure):
+            from refines.report import render
+
+            return render(excinfo.value.result,
+                          strict=self.config.getoption("refines_strict"))
+        return super().repr_failure(excinfo)
+
+    def reportinfo(self):
+        line: Optional[int] = self.fn.__code__.co_firstlineno - 1
+        return self.path, line, f"refines: {self.name}"

@@ -1,0 +1,156 @@
+"""The pytest plugin (entry point ``pytest11: refines``).
+
+Light by design: nothing heavy (z3, astroid, hypothesis) is imported here or
+at collection, so projects without specs pay nothing. The solver loads in the
+first item that runs.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+from typing import List, Optional
+
+import pytest
+
+PATHS_KEY = pytest.StashKey[List[Path]]()
+USER_PROPERTY = "refines"
+DEFAULT_TIMEOUT = 10.0
+
+
+def pytest_addoption(parser: pytest.Parser) -> None:
+    group = parser.getgroup("refines", "proving that functions refine their specs")
+    group.addoption(
+        "--refines-path", action="append", default=[], metavar="PATH",
+        help="file or folder whose @refines specs are checked (repeatable; "
+             "added to the ini option refines_paths)")
+    group.addoption(
+        "--refines-timeout", type=float, default=None, metavar="SECONDS",
+        help=f"solver budget per obligation (default {DEFAULT_TIMEOUT:g})")
+    group.addoption(
+        "--refines-report", default=None, metavar="PATH",
+        help="write the verdicts as JSON (schema refines-report/1) to PATH")
+    group.addoption(
+        "--refines-strict", action="store_true", default=False,
+        help="fail obligations that are only tested or unknown, not proved")
+    parser.addini(
+        "refines_paths", type="linelist", default=[],
+        help="files or folders (relative to the rootdir) whose @refines specs are checked")
+    parser.addini(
+        "refines_timeout", default=str(DEFAULT_TIMEOUT),
+        help="solver budget per obligation in seconds")
+
+
+def pytest_configure(config: pytest.Config) -> None:
+    root = config.rootpath
+    paths: List[Path] = []
+    for raw in config.getini("refines_paths"):
+        p = (root / raw).resolve()
+        if not p.exists():
+            raise pytest.UsageError(
+                f"refines_paths in {config.inipath or 'the ini file'}: {raw!r} does not exist "
+                f"(paths are relative to the rootdir {root}); list existing files or folders")
+        paths.append(p)
+    explicit: List[Path] = []
+    for raw in config.getoption("refines_path") or []:
+        p = Path(raw)
+        p = (p if p.is_absolute() else Path(config.invocation_params.dir) / p).resolve()
+        if not p.exists():
+            raise pytest.UsageError(
+                f"--refines-path {raw!r} does not exist; give an existing file or folder")
+        explicit.append(p)
+    config.stash[PATHS_KEY] = paths + explicit
+    config.pluginmanager.register(Gatherer(config), "refines-gatherer")
+    timeout = timeout_of(config)
+    if timeout <= 0:
+        raise pytest.UsageError(f"--refines-timeout must be a positive number of seconds, "
+                                f"got {timeout:g}")
+
+    # Specs are collected even when no test path names them: the ini paths are
+    # added unless the user named what to run; --refines-path always is.
+    args_given = config.args_source == pytest.Config.ArgsSource.ARGS
+    wanted = explicit + ([] if args_given else paths)
+    covered = [_arg_path(config, a) for a in config.args]
+    for p in wanted:
+        if not any(c is not None and (p == c or c in p.parents) for c in covered):
+            config.args.append(str(p))
+            covered.append(p)
+
+
+def _arg_path(config: pytest.Config, arg: str) -> Optional[Path]:
+    base = arg.split("::")[0]
+    p = Path(base)
+    p = p if p.is_absolute() else Path(config.invocation_params.dir) / p
+    try:
+        return p.resolve()
+    except OSError:
+        return None
+
+
+def timeout_of(config: pytest.Config) -> float:
+    value = config.getoption("refines_timeout")
+    if value is None:
+        try:
+            value = float(config.getini("refines_timeout"))
+        except ValueError:
+            raise pytest.UsageError(
+                f"refines_timeout in {config.inipath}: expected seconds as a number, "
+                f"got {config.getini('refines_timeout')!r}") from None
+    return float(value)
+
+
+def pytest_collect_file(file_path: Path, parent: pytest.Collector):
+    if file_path.suffix != ".py" or file_path.name == "conftest.py":
+        return None
+    paths = parent.config.stash.get(PATHS_KEY, [])
+    resolved = file_path.resolve()
+    if not any(resolved == p or p in resolved.parents for p in paths):
+        return None
+    from refines.items import RefinesFile
+
+    return RefinesFile.from_parent(parent, path=file_path)
+
+
+class Gatherer:
+    """Gathers verdicts from reports and writes the summary and JSON report.
+
+    Registered per session; under xdist the reports reach the controller with
+    their ``user_properties`` (plain JSON data), so the controller alone
+    writes one combined report.
+    """
+
+    def __init__(self, config: pytest.Config) -> None:
+        self.config = config
+        self.results: List[dict] = []
+
+    def pytest_runtest_logreport(self, report: pytest.TestReport) -> None:
+        if report.when != "call":
+            return
+        for key, value in report.user_properties:
+            if key == USER_PROPERTY:
+                self.results.append(value)
+
+    def pytest_terminal_summary(self, terminalreporter) -> None:
+        if not self.results:
+            return
+        from refines.report import summary_lines
+
+        terminalreporter.section("refines")
+        for line in summary_lines(self.results):
+            terminalreporter.write_line(line)
+
+    def pytest_sessionfinish(self, session: pytest.Session) -> None:
+        target = self.config.getoption("refines_report")
+        if not target or hasattr(self.config, "workerinput"):
+            return
+        from refines.report import json_report
+
+        path = Path(target)
+        if not path.is_absolute():
+            path = Path(self.config.invocation_params.dir) / path
+        path.parent.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_name(path.name + ".tmp")
+        tmp.write_text(json.dumps(json_report(self.results), indent=2) + "\n",
+                       encoding="utf-8")
+        os.replace(tmp, path)

@@ -1,0 +1,85 @@
+"""Turning verdicts into text and JSON. No other module prints."""
+
+from __future__ import annotations
+
+from typing import Dict, Iterable, List
+
+from refines.verdict import ERROR, REFUTED, TESTED, UNKNOWN, VERDICTS, Result
+
+SCHEMA = "refines-report/1"
+
+
+def render(result: Result, strict: bool = False) -> str:
+    """The failure text of one obligation: what happened, then what to do."""
+    head = f"{result.verdict}: {result.function}  [{result.path}:{result.line}]"
+    lines = [head]
+    ce = result.counterexample
+    if result.verdict == REFUTED and ce is not None:
+        lines.append("  the spec does not hold; counterexample "
+                     + ("(confirmed by running the function):" if ce.confirmed
+                        else "(NOT confirmed by running the function):"))
+        lines.append(f"      {ce.call}")
+        if "raised" in ce.outcome:
+            lines.append(f"      raised {ce.outcome['raised']}"
+                         + (f": {ce.detail}" if ce.detail else ""))
+        else:
+            lines.append(f"      returned {ce.outcome['returned']}")
+            if ce.detail:
+                lines.append(f"      ({ce.detail})")
+        lines.append(f"  violated:            {ce.violated}"
+                     + (f"  [{ce.violated_at}]" if ce.violated_at else ""))
+        if result.exact_precondition is not None:
+            lines.append(f"  exact precondition:  {result.exact_precondition}")
+            lines.append("      (the weakest condition on the inputs under which the "
+                         "function meets the spec)")
+        if result.suggested_assuming is not None:
+            lines.append(f"  suggested:           assuming={result.suggested_assuming}")
+        if result.precondition_note:
+            lines.append(f"  note: {result.precondition_note}")
+    else:
+        if result.reason:
+            lines.append(f"  {result.reason}")
+        if strict and result.verdict in (TESTED, UNKNOWN):
+            lines.append("  (failed because --refines-strict asks for a proof)")
+    if result.hint:
+        lines.append(f"  Hint: {result.hint}")
+    for note in result.notes:
+        lines.append("  " + note.rstrip().replace("\n", "\n  "))
+    return "\n".join(lines)
+
+
+def one_line(result: Result) -> str:
+    """A single line for skip reasons and summaries."""
+    text = f"refines {result.verdict}: {result.reason or ''}".rstrip()
+    if result.hint:
+        text += f" -- hint: {result.hint}"
+    return text
+
+
+def counts(results: Iterable[dict]) -> Dict[str, int]:
+    out = {v: 0 for v in VERDICTS}
+    for r in results:
+        out[r["verdict"]] += 1
+    return out
+
+
+def summary_lines(results: List[dict]) -> List[str]:
+    """The terminal summary: what was not proved, then one count line."""
+    lines = []
+    for verdict, label in ((TESTED, "tested, NOT proved"), (UNKNOWN, "unknown, NOT proved"),
+                           (REFUTED, "refuted"), (ERROR, "error")):
+        for r in results:
+            if r["verdict"] == verdict:
+                why = f" -- {r['reason']}" if r.get("reason") else ""
+                lines.append(f"{label}: {r['nodeid']}{why}")
+    c = counts(results)
+    lines.append("refines: " + ", ".join(f"{c[v]} {v}" for v in VERDICTS))
+    return lines
+
+
+def json_report(results: List[dict]) -> dict:
+    ordered = sorted(results, key=lambda r: r["nodeid"])
+    return {"schema": SCHEMA, "summary": counts(ordered), "results": ordered}
+
+
+
