@@ -235,9 +235,43 @@ def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
                 c, k = linear(other, atoms)
                 m = int(const_side.value)
                 return {a: v * m for a, v in c.items() if v * m}, k * m
+    t = normal_term(t)
     key = ir.render(t)
     atoms[key] = t
     return {key: 1}, 0
+
+
+def normal_term(t: ir.Term) -> ir.Term:
+    """Fold the linear parts of a term: ``(x + 2 - 1) // 2`` -> ``(x + 1) // 2``."""
+    if isinstance(t, ir.Arith) and t.op in ("+", "-", "*") or isinstance(t, ir.Neg):
+        atoms: Dict[str, ir.Term] = {}
+        coeffs, k = linear(t, atoms)
+        if len(coeffs) == 1 and next(iter(coeffs.values())) == 1 and k == 0 \
+                and atoms[next(iter(coeffs))] is t:
+            return t
+        return _rebuild(coeffs, k, atoms, sorted(coeffs))
+    if isinstance(t, ir.Arith):
+        return ir.arith(t.op, normal_term(t.left), normal_term(t.right))
+    return t
+
+
+def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
+             names: Sequence[str]) -> ir.Term:
+    lhs: Optional[ir.Term] = None
+    for a in names:
+        v = coeffs[a]
+        term = atoms[a] if abs(v) == 1 else ir.arith("*", ir.const(abs(v)), atoms[a])
+        if lhs is None:
+            lhs = term if v > 0 else ir.neg(term)
+        else:
+            lhs = ir.arith("+" if v > 0 else "-", lhs, term)
+    if lhs is None:
+        return ir.const(k)
+    if k > 0:
+        return ir.arith("+", lhs, ir.const(k))
+    if k < 0:
+        return ir.arith("-", lhs, ir.const(-k))
+    return lhs
 
 
 def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
@@ -272,15 +306,26 @@ def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
         else:  # "<", ">=": round up
             k = -((-k) // g)
         coeffs = {a: v // g for a, v in coeffs.items()}
-    lhs: Optional[ir.Term] = None
-    for a in names:
-        v = coeffs[a]
-        term = atoms[a] if abs(v) == 1 else ir.arith("*", ir.const(abs(v)), atoms[a])
-        if lhs is None:
-            lhs = term if v > 0 else ir.neg(term)
-        else:
-            lhs = ir.arith("+" if v > 0 else "-", lhs, term)
-    return ir.Cmp(op, lhs, ir.const(k))
+    if len(names) == 1 and coeffs[names[0]] == 1:
+        bounded = _floordiv_bounds(atoms[names[0]], op, k, order)
+        if bounded is not None:
+            return bounded
+    return ir.Cmp(op, _rebuild(coeffs, 0, atoms, names), ir.const(k))
+
+
+def _floordiv_bounds(atom: ir.Term, op: str, k: int, order: Dict[str, int]):
+    """``e // m <op> k`` for a constant m > 0, as bounds on ``e``:
+    e // m >= k  <=>  e >= k*m   and   e // m <= k  <=>  e <= k*m + m - 1."""
+    if not (isinstance(atom, ir.Arith) and atom.op == "//"
+            and isinstance(atom.right, ir.Const) and atom.right.value > 0):
+        return None
+    e, m = atom.left, int(atom.right.value)
+    low, high = k * m, k * m + m - 1
+    bounds = {">=": [(">=", low)], ">": [(">=", high + 1)], "<=": [("<=", high)],
+              "<": [("<=", low - 1)], "==": [(">=", low), ("<=", high)]}.get(op)
+    if bounds is None:
+        return None
+    return ir.and_(*(normal_literal(ir.cmp(o, e, ir.const(b)), order) for o, b in bounds))
 
 
 def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
@@ -290,9 +335,10 @@ def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
         n = normal_literal(lit, order)
         if ir.is_false(n):
             return None
-        if ir.is_true(n) or any(ir.render(n) == ir.render(o) for o in out):
-            continue
-        out.append(n)
+        for part in (n.args if isinstance(n, ir.And) else (n,)):
+            if ir.is_true(part) or any(ir.render(part) == ir.render(o) for o in out):
+                continue
+            out.append(part)
     return out
 
 

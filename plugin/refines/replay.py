@@ -107,29 +107,37 @@ def judge(ob: Obligation, inputs: Dict[str, Any], outcome: Run) -> Judgement:
     return Judgement(False, text, where(rel, line))
 
 
-def conjuncts(node: nodes.NodeNG) -> List[nodes.NodeNG]:
+def conjuncts(node: nodes.NodeNG, lines: List[bytes]) -> List[Tuple[str, int]]:
+    """The top-level ``and`` operands of a condition, with the links of a
+    comparison chain (``0 <= r < n`` is ``0 <= r`` and ``r < n``) apart."""
     if isinstance(node, nodes.BoolOp) and node.op == "and":
-        out: List[nodes.NodeNG] = []
+        out: List[Tuple[str, int]] = []
         for v in node.values:
-            out.extend(conjuncts(v))
+            out.extend(conjuncts(v, lines))
         return out
-    return [node]
+    if isinstance(node, nodes.Compare) and len(node.ops) > 1:
+        links, left = [], node.left
+        for op, right in node.ops:
+            links.append((f"{node_text(left, lines)} {op} {node_text(right, lines)}",
+                          left.lineno))
+            left = right
+        return links
+    return [(node_text(node, lines), node.lineno)]
 
 
 def failing_conjunct(part: SpecPart, values: Dict[str, Any]) -> Tuple[str, int]:
-    """The first top-level ``and`` operand of the relation that is false."""
-    parts = conjuncts(part.body)
+    """The first conjunct of the relation that is false on these values."""
+    _, lines = parse_file(part.path)
+    parts = conjuncts(part.body, lines)
     if len(parts) == 1:
         return part.text, part.line
-    _, lines = parse_file(part.path)
-    for c in parts:
-        text = node_text(c, lines)
+    for text, line in parts:
         fn = eval(f"lambda {', '.join(part.params)}: (\n{text}\n)", part.globals)
         try:
             if not fn(*[values[n] for n in part.params]):
-                return text, c.lineno
+                return text, line
         except Exception:  # noqa: BLE001
-            return text, c.lineno
+            return text, line
     return part.text, part.line
 
 
