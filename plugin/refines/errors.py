@@ -43,8 +43,8 @@ MESSAGES: Dict[str, Message] = {
         "supported: int and bool arithmetic (+ - * // % ** with a constant "
         "exponent), comparisons, and/or/not, conditional expressions, tuples, "
         "abs/min/max",
-        "@refines(lambda xs, result: result >= 0)\n"
-        "def f(xs: int) -> int:\n    return len([xs])\n",
+        "@refines(lambda x, result: result >= 0)\n"
+        "def f(x: int) -> int:\n    return x.real\n",
         "unsupported",
     ),
     "call": Message(
@@ -90,8 +90,8 @@ MESSAGES: Dict[str, Message] = {
         "the name `{name}` is not a parameter, a local assigned before this "
         "line, or a module-level int/bool constant",
         "module constants must be assigned once at module level to an int or bool",
-        "import os\n\n@refines(lambda x, result: result == x)\n"
-        "def f(x: int) -> int:\n    return os.sep\n",
+        "GREETING = 'welcome'\n\n@refines(lambda x, result: result == x)\n"
+        "def f(x: int) -> int:\n    return GREETING\n",
         "unsupported",
     ),
     "mixed": Message(

@@ -29,6 +29,7 @@ import z3
 
 from refines import ir
 from refines.errors import SpecError, Untranslatable
+from refines.obligation import allowed
 from refines.translate import Scope, parse_expression, translate_spec
 
 MAX_CUBES = 64
@@ -42,8 +43,6 @@ class Preconditions:
 
 
 def weakest(behaviour: ir.Behaviour, spec) -> ir.Term:
-    from refines.prove import allowed
-
     return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes))
 
 

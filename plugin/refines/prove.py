@@ -14,16 +14,16 @@ from __future__ import annotations
 
 import time
 import traceback
-from dataclasses import dataclass
-from typing import Any, Callable, Dict, List, Optional, Sequence, Tuple
+from typing import Any, Optional, Sequence
 
 import z3
 
-from refines import ir, replay
+from refines import ir, precondition, replay
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering
-from refines.source import Obligation, SpecPart
-from refines.translate import Scope, SpecValue, translate_body, translate_spec
+from refines.obligation import Spec, translate_spec_for, violations
+from refines.source import Obligation
+from refines.translate import Scope, translate_body
 from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Result
 
 # z3 resource units per second of budget. The resource limit, unlike the
@@ -41,23 +41,6 @@ class Budget:
 
     def remaining(self) -> float:
         return max(0.0, self.deadline - time.perf_counter())
-
-
-@dataclass
-class Spec:
-    """The spec of an obligation, translated, for one behaviour."""
-
-    assuming: SpecValue
-    raises: Tuple[Tuple[type, SpecPart, SpecValue], ...]
-    relation: Callable[[ir.Value], SpecValue]
-
-
-@dataclass
-class Violation:
-    """The pre-states on which one (group of) outcome(s) breaks the spec."""
-
-    term: ir.Term
-    outcome: ir.Outcome  # a representative outcome
 
 
 class Solver:
@@ -98,77 +81,6 @@ class Solver:
         return z.as_long()
 
 
-def translate_spec_for(ob: Obligation) -> Spec:
-    """Translate assuming, raises and relation over the parameters."""
-    pre: Dict[str, ir.Value] = {p.name: p for p in ob.params}
-
-    def read(part: SpecPart, env: Dict[str, ir.Value], old: Optional[dict] = None):
-        scope = Scope(part.globals, part.params)
-        try:
-            return translate_spec(part.body, {n: env[n] for n in part.params}, scope,
-                                  part.role, old_env=old)
-        except (SpecError, Untranslatable) as exc:
-            if isinstance(exc, SpecError) and exc.path is None:
-                exc.path = part.path
-            raise
-
-    assuming = (read(ob.assuming, pre) if ob.assuming is not None
-                else SpecValue(ir.TRUE, ir.TRUE, ()))
-    raises = tuple((cls, part, read(part, pre)) for cls, part in ob.raises)
-
-    def relation(result: ir.Value) -> SpecValue:
-        return read(ob.relation, dict(pre, result=result), old=pre)
-
-    return Spec(assuming, raises, relation)
-
-
-def allowed(spec: Spec, outcome: ir.Outcome, relation: Optional[SpecValue] = None) -> ir.Term:
-    """Where ``outcome`` (if it happens) meets the spec."""
-    if not outcome.returns:
-        return ir.or_(*(r.holds for cls, _, r in spec.raises
-                        if issubclass(outcome.exception, cls)))
-    no_raise_required = ir.and_(*(ir.not_(r.holds) for _, _, r in spec.raises))
-    relation = relation if relation is not None else spec.relation(outcome.value)
-    return ir.and_(no_raise_required, relation.holds)
-
-
-def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
-    """One violation term per group of outcomes.
-
-    Returns of the same shape are merged into one value (an if-then-else over
-    their guards), so the relation is read once rather than once per return.
-    """
-    out: List[Violation] = []
-    groups: Dict[str, List[ir.Outcome]] = {}
-    for o in behaviour.outcomes:
-        if o.returns:
-            groups.setdefault(_shape(o.value), []).append(o)
-        else:
-            out.append(Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o))
-    for members in groups.values():
-        value = members[-1].value
-        for o in reversed(members[:-1]):
-            value = _merge_value(o.guard, o.value, value)
-        guard = ir.or_(*(o.guard for o in members))
-        merged = ir.Outcome(guard, value=value, line=members[0].line)
-        out.append(Violation(ir.and_(guard, ir.not_(allowed(spec, merged))), merged))
-    return out
-
-
-def _shape(v: ir.Value) -> str:
-    if isinstance(v, ir.Tup):
-        return "(" + ",".join(_shape(i) for i in v.items) + ")"
-    return "None" if v is ir.NONE else "scalar"
-
-
-def _merge_value(cond: ir.Term, a: ir.Value, b: ir.Value) -> ir.Value:
-    if isinstance(a, ir.Tup):
-        return ir.Tup(tuple(_merge_value(cond, x, y) for x, y in zip(a.items, b.items)))
-    if a is ir.NONE:
-        return ir.NONE
-    return ir.ite(cond, a, b)
-
-
 def check(ob: Obligation, timeout: float) -> Result:
     """The verdict on one obligation, within ``timeout`` seconds of solving."""
     start = time.perf_counter()
@@ -178,11 +90,11 @@ def check(ob: Obligation, timeout: float) -> Result:
     except Untranslatable as exc:
         result.verdict = UNKNOWN
         result.reason = f"not translated: {exc.text} ({ob.path}:{exc.line})"
-        result.hint = exc.hint
+        result.hint, result.message_key = exc.hint, exc.key
     except SpecError as exc:
         result.verdict = ERROR
         result.reason = f"{exc.path or ob.path}:{exc.line}: {exc.text}"
-        result.hint = exc.hint
+        result.hint, result.message_key = exc.hint, exc.key
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         result.verdict = ERROR
         result.reason = (f"internal error while checking {ob.function} "
@@ -205,7 +117,8 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     # A spec that can itself raise is malformed: say where, with an example.
     ill = _ill_formed(ob, spec, solver)
     if ill is not None:
-        result.verdict, result.reason, result.hint = ERROR, ill[0], ill[1]
+        result.verdict = ERROR
+        result.reason, result.hint, result.message_key = ill
         return result
 
     found = violations(behaviour, spec)
@@ -240,8 +153,6 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         violated=judgement.violated, violated_at=judgement.violated_at,
         detail=judgement.detail or (actual.describe() if actual.raised else ""))
 
-    from refines import precondition
-
     pre = precondition.exact(ob, behaviour, spec, solver)
     result.exact_precondition = pre.exact
     result.suggested_assuming = pre.suggested
@@ -273,7 +184,7 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
                                   if k in part.params)
                 text, hint = format_message("spec-raising", role=f"`{part.role}`",
                                             exception=o.exception.__name__, inputs=shown)
-                return f"{part.path}:{part.line}: {text}", hint
+                return f"{part.path}:{part.line}: {text}", hint, "spec-raising"
     return None
 
 
@@ -291,10 +202,10 @@ def check_function(fn, index: int, path: str, module: str, timeout: float,
     except Untranslatable as exc:
         base.verdict = UNKNOWN
         base.reason = f"not translated: {exc.text} ({shown}:{exc.line})"
-        base.hint = exc.hint
+        base.hint, base.message_key = exc.hint, exc.key
     except SpecError as exc:
         base.reason = f"{_display(exc.path, path, shown)}:{exc.line}: {exc.text}"
-        base.hint = exc.hint
+        base.hint, base.message_key = exc.hint, exc.key
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         base.reason = (f"internal error while reading the spec of {base.function} "
                        f"({shown}:{base.line}): {type(exc).__name__}: {exc}")

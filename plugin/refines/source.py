@@ -179,9 +179,9 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
               (args.args or [], args.annotations or [], "positional"),
               (args.kwonlyargs or [], args.kwonlyargs_annotations or [], "keyword")]
     params, kinds = [], []
-    for arg_nodes, annotations, kind in groups:
+    for arg_nodes, hints, kind in groups:
         for i, arg in enumerate(arg_nodes):
-            ann = annotations[i] if i < len(annotations) else None
+            ann = hints[i] if i < len(hints) else None
             params.append(ir.Var(arg.name, param_sort(arg.name, ann, globals_, fn_node)))
             kinds.append(kind)
     return tuple(params), tuple(kinds)

@@ -48,6 +48,7 @@ class Result:
     exact_precondition: Optional[str] = None
     suggested_assuming: Optional[str] = None
     precondition_note: Optional[str] = None  # why no precondition is shown
+    message_key: Optional[str] = None  # the errors.MESSAGES row, for unknown/error
     notes: List[str] = field(default_factory=list)
 
     def to_json(self, nodeid: str, path: str) -> dict:

@@ -1,0 +1,110 @@
+"""The obligation: the spec translated over the parameters, and the formula
+whose satisfying pre-states are exactly the counterexamples.
+
+For a pre-state allowed by ``assuming``, an outcome is allowed when
+
+* it raises class C and some ``raises`` condition for C (or a base of C) holds;
+* it returns, no ``raises`` condition holds, and the relation holds with
+  ``result`` bound to the returned value (a relation that itself raises does
+  not hold).
+
+The obligation fails exactly on ``assuming and OR(guard_o and not allowed_o)``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable, Dict, List, Optional, Tuple
+
+from refines import ir
+from refines.errors import SpecError, Untranslatable
+from refines.source import Obligation, SpecPart
+from refines.translate import Scope, SpecValue, translate_spec
+
+
+@dataclass
+class Spec:
+    """The spec of an obligation, translated, for one behaviour."""
+
+    assuming: SpecValue
+    raises: Tuple[Tuple[type, SpecPart, SpecValue], ...]
+    relation: Callable[[ir.Value], SpecValue]
+
+
+@dataclass
+class Violation:
+    """The pre-states on which one (group of) outcome(s) breaks the spec."""
+
+    term: ir.Term
+    outcome: ir.Outcome  # a representative outcome
+
+
+def translate_spec_for(ob: Obligation) -> Spec:
+    """Translate assuming, raises and relation over the parameters."""
+    pre: Dict[str, ir.Value] = {p.name: p for p in ob.params}
+
+    def read(part: SpecPart, env: Dict[str, ir.Value], old: Optional[dict] = None):
+        scope = Scope(part.globals, part.params)
+        try:
+            return translate_spec(part.body, {n: env[n] for n in part.params}, scope,
+                                  part.role, old_env=old)
+        except (SpecError, Untranslatable) as exc:
+            if isinstance(exc, SpecError) and exc.path is None:
+                exc.path = part.path
+            raise
+
+    assuming = (read(ob.assuming, pre) if ob.assuming is not None
+                else SpecValue(ir.TRUE, ir.TRUE, ()))
+    raises = tuple((cls, part, read(part, pre)) for cls, part in ob.raises)
+
+    def relation(result: ir.Value) -> SpecValue:
+        return read(ob.relation, dict(pre, result=result), old=pre)
+
+    return Spec(assuming, raises, relation)
+
+
+def allowed(spec: Spec, outcome: ir.Outcome, relation: Optional[SpecValue] = None) -> ir.Term:
+    """Where ``outcome`` (if it happens) meets the spec."""
+    if not outcome.returns:
+        return ir.or_(*(r.holds for cls, _, r in spec.raises
+                        if issubclass(outcome.exception, cls)))
+    no_raise_required = ir.and_(*(ir.not_(r.holds) for _, _, r in spec.raises))
+    relation = relation if relation is not None else spec.relation(outcome.value)
+    return ir.and_(no_raise_required, relation.holds)
+
+
+def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
+    """One violation term per group of outcomes.
+
+    Returns of the same shape are merged into one value (an if-then-else over
+    their guards), so the relation is read once rather than once per return.
+    """
+    out: List[Violation] = []
+    groups: Dict[str, List[ir.Outcome]] = {}
+    for o in behaviour.outcomes:
+        if o.returns:
+            groups.setdefault(_shape(o.value), []).append(o)
+        else:
+            out.append(Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o))
+    for members in groups.values():
+        value = members[-1].value
+        for o in reversed(members[:-1]):
+            value = _merge_value(o.guard, o.value, value)
+        guard = ir.or_(*(o.guard for o in members))
+        merged = ir.Outcome(guard, value=value, line=members[0].line)
+        out.append(Violation(ir.and_(guard, ir.not_(allowed(spec, merged))), merged))
+    return out
+
+
+def _shape(v: ir.Value) -> str:
+    if isinstance(v, ir.Tup):
+        return "(" + ",".join(_shape(i) for i in v.items) + ")"
+    return "None" if v is ir.NONE else "scalar"
+
+
+def _merge_value(cond: ir.Term, a: ir.Value, b: ir.Value) -> ir.Value:
+    if isinstance(a, ir.Tup):
+        return ir.Tup(tuple(_merge_value(cond, x, y) for x, y in zip(a.items, b.items)))
+    if a is ir.NONE:
+        return ir.NONE
+    return ir.ite(cond, a, b)

@@ -1,0 +1,12 @@
+"""Test-suite set-up.
+
+pytester's in-process runs drop the modules first imported during an inner
+run, and the next inner run would import fresh copies beside the stale ones
+still bound in the ``refines`` package. A real pytest run imports them once;
+preloading them here gives every inner run that same single copy.
+"""
+
+import refines.items  # noqa: F401
+import refines.precondition  # noqa: F401
+import refines.prove  # noqa: F401
+import refines.report  # noqa: F401

@@ -1,0 +1,47 @@
+"""Shared helpers for the tests: turn source text into checked obligations."""
+
+from __future__ import annotations
+
+import importlib.util
+import itertools
+import sys
+import textwrap
+from pathlib import Path
+from typing import List
+
+from refines.items import specced_functions
+from refines.prove import check_function
+from refines.source import runtime_specs
+
+HEADER = "from refines import refines, old\n\n"
+_counter = itertools.count()
+
+
+def load_module(tmp_path: Path, source: str, header: str = HEADER):
+    """Write ``source`` as a fresh module under ``tmp_path`` and import it."""
+    name = f"refines_case_{next(_counter)}"
+    path = tmp_path / f"{name}.py"
+    path.write_text(header + textwrap.dedent(source), encoding="utf-8")
+    spec = importlib.util.spec_from_file_location(name, path)
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[name] = module
+    spec.loader.exec_module(module)
+    return module, path
+
+
+def check_source(tmp_path: Path, source: str, timeout: float = 20.0,
+                 header: str = HEADER) -> List:
+    """Every obligation in ``source``, checked, in source order."""
+    module, path = load_module(tmp_path, source, header)
+    results = []
+    for fn in specced_functions(module):
+        for index in range(len(runtime_specs(fn))):
+            results.append(check_function(fn, index, str(path), module.__name__, timeout,
+                                          display_path=path.name))
+    return results
+
+
+def check_one(tmp_path: Path, source: str, **kw):
+    results = check_source(tmp_path, source, **kw)
+    assert len(results) == 1, results
+    return results[0]

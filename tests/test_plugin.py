@@ -1,0 +1,252 @@
+"""End to end through pytester: collection, outcomes, options, the JSON report."""
+
+import json
+import math
+
+import pytest
+
+SPECS = '''
+from refines import refines, old
+
+LIMIT = 10
+
+
+@refines(lambda x, result: result > x)
+def bump(x: int) -> int:
+    return x + 1
+
+
+@refines(lambda x, result: result > 5)
+def shifted(x: int) -> int:
+    return x + 1
+
+
+@refines(lambda n, result: result >= 0)
+def looping(n: int) -> int:
+    total = 0
+    for i in range(n):
+        total += i
+    return total
+
+
+@refines(lambda y, result: result == y)
+def misnamed(x: int) -> int:
+    return x
+
+
+@refines(lambda x, result: result >= 0)
+@refines(lambda x, result: result <= LIMIT, assuming=lambda x: x <= LIMIT)
+def clamp(x: int) -> int:
+    return max(0, min(x, LIMIT))
+'''
+
+
+def line_of(pytester, filename, needle):
+    """The 1-based line of the first line containing ``needle``."""
+    lines = (pytester.path / filename).read_text().splitlines()
+    return next(i for i, text in enumerate(lines, 1) if needle in text)
+
+
+@pytest.fixture
+def project(pytester):
+    pytester.makepyfile(specs=SPECS)
+    pytester.makepyprojecttoml('[tool.pytest.ini_options]\nrefines_paths = ["specs.py"]\n')
+    return pytester
+
+
+def test_verdicts_map_to_pytest_outcomes(project):
+    spec_line = line_of(project, "specs.py", "result > 5")
+    result = project.runpytest("-p", "no:cacheprovider")
+    result.assert_outcomes(passed=3, failed=2, skipped=1)
+    result.stdout.fnmatch_lines([
+        "*refuted: specs.shifted*",
+        "*shifted(x=4)*",
+        "*returned 5*",
+        f"*violated:*result > 5*specs.py:{spec_line}*",
+        "*exact precondition:  x > 4*",
+        "*suggested:*assuming=lambda x: x > 4*",
+        "*error: specs.misnamed*",
+        "*specs.py:*the relation names `y`, which is not a parameter*",
+        "*refines: 3 proved, 1 refuted, 0 tested, 1 unknown, 1 error*",
+    ])
+
+
+def test_untranslatable_construct_is_skipped_with_construct_and_line(project):
+    loop_line = line_of(project, "specs.py", "for i in range")
+    result = project.runpytest("-rs", "-p", "no:cacheprovider", "-k", "looping")
+    result.assert_outcomes(skipped=1)
+    result.stdout.fnmatch_lines(
+        [f"*`for` statements are not translated yet (specs.py:{loop_line})*"])
+
+
+def test_node_ids_and_stacked_specs(project):
+    result = project.runpytest("--collect-only", "-q", "-p", "no:cacheprovider")
+    result.stdout.fnmatch_lines([
+        "specs.py::bump", "specs.py::shifted", "specs.py::looping", "specs.py::misnamed",
+        "specs.py::clamp", "specs.py::clamp[[]2[]]",
+    ])
+
+
+def test_strict_fails_unknown(project):
+    result = project.runpytest("--refines-strict", "-p", "no:cacheprovider", "-k", "looping")
+    result.assert_outcomes(failed=1)
+    result.stdout.fnmatch_lines(["*failed because --refines-strict asks for a proof*"])
+
+
+def test_keyword_selection_and_exitfirst(project):
+    project.runpytest("-k", "bump or clamp", "-p", "no:cacheprovider").assert_outcomes(passed=3)
+    result = project.runpytest("-x", "-p", "no:cacheprovider")
+    result.assert_outcomes(passed=1, failed=1)
+
+
+def test_last_failed_reruns_only_refutations(project):
+    project.runpytest()
+    result = project.runpytest("--lf")
+    result.assert_outcomes(failed=2)
+
+
+def test_junitxml_lists_each_obligation(project):
+    result = project.runpytest("--junitxml=out.xml", "-p", "no:cacheprovider")
+    xml = (project.path / "out.xml").read_text()
+    assert xml.count("<testcase") == 6
+    assert 'name="shifted"' in xml
+    result.assert_outcomes(passed=3, failed=2, skipped=1)
+
+
+def _report(pytester, *args):
+    pytester.runpytest("--refines-report=report.json", "-p", "no:cacheprovider", *args)
+    return json.loads((pytester.path / "report.json").read_text())
+
+
+def test_json_report_follows_the_schema(project):
+    data = _report(project)
+    assert data["schema"] == "refines-report/1"
+    assert data["summary"] == {"proved": 3, "refuted": 1, "tested": 0, "unknown": 1,
+                               "error": 1}
+    keys = {"nodeid", "function", "path", "line", "verdict", "seconds", "reason",
+            "counterexample", "exact_precondition", "suggested_assuming"}
+    assert all(set(r) == keys for r in data["results"])
+    by_id = {r["nodeid"]: r for r in data["results"]}
+    shifted = by_id["specs.py::shifted"]
+    assert shifted["function"] == "specs.shifted"
+    assert shifted["path"] == "specs.py"
+    assert shifted["line"] == line_of(project, "specs.py", "result > 5")
+    assert shifted["verdict"] == "refuted"
+    assert shifted["counterexample"] == {
+        "inputs": {"x": "4"}, "outcome": {"returned": "5"}, "confirmed": True,
+        "violated": "result > 5"}
+    assert shifted["exact_precondition"] == "x > 4"
+    assert shifted["suggested_assuming"] == "lambda x: x > 4"
+    assert by_id["specs.py::bump"]["verdict"] == "proved"
+    assert by_id["specs.py::bump"]["reason"] is None
+    assert by_id["specs.py::looping"]["verdict"] == "unknown"
+    assert "for" in by_id["specs.py::looping"]["reason"]
+    assert by_id["specs.py::misnamed"]["verdict"] == "error"
+    assert {"specs.py::clamp", "specs.py::clamp[2]"} <= set(by_id)
+    assert all(isinstance(r["seconds"], float) for r in data["results"])
+
+
+def test_xdist_writes_one_combined_report(project):
+    pytest.importorskip("xdist")
+    serial = _report(project)
+    parallel = _report(project, "-n", "2")
+    strip = lambda d: [{k: v for k, v in r.items() if k != "seconds"}  # noqa: E731
+                       for r in d["results"]]
+    assert parallel["summary"] == serial["summary"]
+    assert strip(parallel) == strip(serial)
+
+
+def test_exact_precondition_evaluates_to_the_spec(pytester):
+    # The printed precondition must be Python that eval accepts with the
+    # parameters bound, and agree with running the function against the spec.
+    pytester.makepyfile(specs='''
+from refines import refines
+
+@refines(lambda a, b, result: 0 <= result <= 100,
+         raises={ValueError: lambda a, b: a < 0})
+def mix(a: int, b: int) -> int:
+    if a < 0:
+        raise ValueError("negative")
+    if b > 3:
+        return a * 2 - b
+    return a + b // 2
+''')
+    data = _report(pytester, "--refines-path", "specs.py")
+    (r,) = data["results"]
+    assert r["verdict"] == "refuted"
+    pre = r["exact_precondition"]
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location("specs_eval", pytester.path / "specs.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    for a in range(-5, 70, 3):
+        for b in range(-60, 60, 7):
+            try:
+                out = mod.mix(a, b)
+                meets = a >= 0 and 0 <= out <= 100
+            except ValueError:
+                meets = a < 0
+            assert eval(pre, {"math": math}, {"a": a, "b": b}) == meets, (a, b, pre)
+
+
+def test_applying_the_suggestion_proves_the_spec(pytester):
+    src = '''
+from refines import refines
+
+@refines(lambda climbers, result: 0 <= result <= 12, assuming={assuming})
+def lanes(climbers: int) -> int:
+    return (climbers + 1) // 2
+'''
+    pytester.makepyfile(specs=src.format(assuming="lambda climbers: climbers >= 0"))
+    data = _report(pytester, "--refines-path", "specs.py")
+    suggestion = data["results"][0]["suggested_assuming"]
+    assert suggestion == "lambda climbers: 0 <= climbers <= 24"
+    pytester.makepyfile(specs=src.format(assuming=suggestion))
+    again = _report(pytester, "--refines-path", "specs.py")
+    assert again["results"][0]["verdict"] == "proved"
+
+
+def test_ini_paths_are_added_to_testpaths_runs(pytester):
+    pytester.makepyfile(specs=SPECS)
+    pytester.mkdir("tests")
+    pytester.path.joinpath("tests", "test_plain.py").write_text("def test_ok():\n    pass\n")
+    pytester.makepyprojecttoml('[tool.pytest.ini_options]\nrefines_paths = ["specs.py"]\n'
+                               'testpaths = ["tests"]\n')
+    result = pytester.runpytest("-p", "no:cacheprovider")
+    result.assert_outcomes(passed=4, failed=2, skipped=1)
+    # Naming a test file explicitly runs just that file.
+    only = pytester.runpytest("tests/test_plain.py", "-p", "no:cacheprovider")
+    only.assert_outcomes(passed=1)
+
+
+def test_missing_paths_and_bad_timeout_are_usage_errors(pytester):
+    pytester.makepyprojecttoml('[tool.pytest.ini_options]\nrefines_paths = ["nowhere"]\n')
+    result = pytester.runpytest()
+    assert result.ret == pytest.ExitCode.USAGE_ERROR
+    result.stderr.fnmatch_lines(["*refines_paths*'nowhere' does not exist*"])
+    pytester.makepyprojecttoml("")
+    bad = pytester.runpytest("--refines-path", "missing.py")
+    assert bad.ret == pytest.ExitCode.USAGE_ERROR
+    bad.stderr.fnmatch_lines(["*--refines-path 'missing.py' does not exist*"])
+    neg = pytester.runpytest("--refines-timeout", "0")
+    neg.stderr.fnmatch_lines(["*--refines-timeout must be a positive number*"])
+
+
+def test_a_module_that_fails_to_import_is_a_collection_error(pytester):
+    pytester.makepyfile(broken="import no_such_module_here\n")
+    pytester.makepyfile(good="from refines import refines\n\n"
+                             "@refines(lambda x, result: result == x)\n"
+                             "def same(x: int) -> int:\n    return x\n")
+    result = pytester.runpytest("--refines-path", "broken.py", "--refines-path", "good.py",
+                                "--continue-on-collection-errors")
+    result.stdout.fnmatch_lines(["*could not import*broken.py*", "*ModuleNotFoundError*"])
+    result.assert_outcomes(passed=1, errors=1)
+
+
+def test_projects_without_specs_are_untouched(pytester):
+    pytester.makepyfile(test_plain="def test_ok():\n    pass\n")
+    result = pytester.runpytest()
+    result.assert_outcomes(passed=1)
+    assert "refines" not in result.stdout.str().split("short test summary")[0].lower() \
+        or "refines:" not in result.stdout.str()
