@@ -152,10 +152,9 @@ def and_(*args: Term) -> Term:
             continue
         if is_false(a):
             return FALSE
-        if isinstance(a, And):
-            flat.extend(a.args)
-        else:
-            flat.append(a)
+        for b in (a.args if isinstance(a, And) else (a,)):
+            if not any(b is c for c in flat):  # the same term twice adds nothing
+                flat.append(b)
     if not flat:
         return TRUE
     if len(flat) == 1:
@@ -170,10 +169,9 @@ def or_(*args: Term) -> Term:
             continue
         if is_true(a):
             return TRUE
-        if isinstance(a, Or):
-            flat.extend(a.args)
-        else:
-            flat.append(a)
+        for b in (a.args if isinstance(a, Or) else (a,)):
+            if not any(b is c for c in flat):
+                flat.append(b)
     if not flat:
         return FALSE
     if len(flat) == 1:

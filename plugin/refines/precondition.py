@@ -94,6 +94,7 @@ def readable(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
     if cubes is not None:
         cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
         cubes = simplify_cubes(cubes, target, context, solver)
+        cubes = [_simpler_literal(c, context, params, target, solver) for c in cubes]
         text = print_cubes(cubes)
         if _equivalent(text, target, context, params, solver):
             return text
@@ -234,7 +235,9 @@ def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
                 c, k = linear(other, atoms)
                 m = int(const_side.value)
                 return {a: v * m for a, v in c.items() if v * m}, k * m
-    t = normal_term(t)
+    # A non-linear part is an atom; its operands are normalised in turn.
+    if isinstance(t, ir.Arith):
+        t = ir.arith(t.op, normal_term(t.left), normal_term(t.right))
     key = ir.render(t)
     atoms[key] = t
     return {key: 1}, 0
@@ -242,16 +245,11 @@ def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
 
 def normal_term(t: ir.Term) -> ir.Term:
     """Fold the linear parts of a term: ``(x + 2 - 1) // 2`` -> ``(x + 1) // 2``."""
-    if isinstance(t, ir.Arith) and t.op in ("+", "-", "*") or isinstance(t, ir.Neg):
-        atoms: Dict[str, ir.Term] = {}
-        coeffs, k = linear(t, atoms)
-        if len(coeffs) == 1 and next(iter(coeffs.values())) == 1 and k == 0 \
-                and atoms[next(iter(coeffs))] is t:
-            return t
-        return _rebuild(coeffs, k, atoms, sorted(coeffs))
-    if isinstance(t, ir.Arith):
-        return ir.arith(t.op, normal_term(t.left), normal_term(t.right))
-    return t
+    if isinstance(t, (ir.Var, ir.Const)):
+        return t
+    atoms: Dict[str, ir.Term] = {}
+    coeffs, k = linear(t, atoms)
+    return _rebuild(coeffs, k, atoms, sorted(coeffs))
 
 
 def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
@@ -295,20 +293,29 @@ def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
     g = 0
     for v in coeffs.values():
         g = gcd(g, abs(v))
-    if g > 1:  # integer tightening: 2*x > 5  <=>  x > 2
+    if g > 1:  # integer tightening: 2*x > 5  <=>  x >= 3
         if op in ("==", "!="):
             if k % g:
                 return ir.const(op == "!=")
             k //= g
-        elif op in (">", "<="):
-            k = k // g
-        else:  # "<", ">=": round up
-            k = -((-k) // g)
+        elif k % g and op in (">", ">="):
+            op, k = ">=", -((-k) // g)  # the least integer above k / g
+        elif k % g:
+            op, k = "<=", k // g  # the greatest integer below k / g
+        else:
+            k //= g
         coeffs = {a: v // g for a, v in coeffs.items()}
     if len(names) == 1 and coeffs[names[0]] == 1:
         bounded = _floordiv_bounds(atoms[names[0]], op, k, order)
         if bounded is not None:
             return bounded
+    if k == 0 and len(names) == 2 and coeffs[names[1]] == -1 and coeffs[names[0]] == 1:
+        return ir.Cmp(op, atoms[names[0]], atoms[names[1]])  # x - y == 0  ->  x == y
+    # Over the integers x > -1 is x >= 0: compare with zero where one step does it.
+    if op == ">" and k == -1:
+        op, k = ">=", 0
+    elif op == "<" and k == 1:
+        op, k = "<=", 0
     return ir.Cmp(op, _rebuild(coeffs, 0, atoms, names), ir.const(k))
 
 
@@ -338,7 +345,22 @@ def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
             if ir.is_true(part) or any(ir.render(part) == ir.render(o) for o in out):
                 continue
             out.append(part)
+    # Literals about earlier parameters first, as the signature reads.
+    out.sort(key=lambda lit: _first_param(lit, order))
     return out
+
+
+def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
+    stack, best = [t], len(order)
+    while stack:
+        n = stack.pop()
+        if isinstance(n, ir.Var):
+            best = min(best, order.get(n.name, len(order)))
+        for attr in ("left", "right", "arg", "cond", "then", "orelse"):
+            if hasattr(n, attr):
+                stack.append(getattr(n, attr))
+        stack.extend(getattr(n, "args", ()))
+    return best
 
 
 # ---------------------------------------------------------------- solver clean-up
@@ -376,6 +398,57 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
         if status != z3.unsat:
             result.append(cube)
     return result
+
+
+def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],
+                     target: ir.Term, solver) -> Cube:
+    """Replace a cube that reasons through ``//``, ``%`` or products by one
+    comparison of a parameter with a constant, when the solver shows the two
+    agree under ``context`` (``0 <= x % y < y`` is ``y > 0``)."""
+    if len(cube) < 2 or not any(_nonlinear(lit) for lit in cube):
+        return cube
+    constants = sorted({0, 1, -1} | _constants(target), key=lambda c: (abs(c), c))[:6]
+    whole = ir.and_(*cube)
+    for p in params:
+        if p.sort != ir.INT:
+            continue
+        for c in constants:
+            for op in (">", ">=", "<", "<=", "==", "!="):
+                candidate = ir.Cmp(op, p, ir.const(c))
+                status, _, _ = solver.check(context, ir.not_(ir.cmp("==", whole, candidate)))
+                if status == z3.unsat:
+                    return [candidate]
+    return cube
+
+
+def _nonlinear(t: ir.Term) -> bool:
+    stack = [t]
+    while stack:
+        n = stack.pop()
+        if isinstance(n, ir.Arith) and (n.op in ("//", "%") or (
+                n.op == "*" and not isinstance(n.left, ir.Const)
+                and not isinstance(n.right, ir.Const))):
+            return True
+        for attr in ("left", "right", "arg"):
+            if hasattr(n, attr):
+                stack.append(getattr(n, attr))
+    return False
+
+
+def _constants(t: ir.Term) -> set:
+    out, stack, seen = set(), [t], set()
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, ir.Const) and n.sort == ir.INT:
+            out.add(int(n.value))
+        for attr in ("left", "right", "arg", "cond", "then", "orelse"):
+            if hasattr(n, attr):
+                stack.append(getattr(n, attr))
+        stack.extend(getattr(n, "args", ()))
+    return out
 
 
 # ---------------------------------------------------------------- printing

@@ -153,7 +153,12 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         violated=judgement.violated, violated_at=judgement.violated_at,
         detail=judgement.detail or (actual.describe() if actual.raised else ""))
 
-    pre = precondition.exact(ob, behaviour, spec, solver)
+    try:
+        pre = precondition.exact(ob, behaviour, spec, solver)
+    except Exception as exc:  # noqa: BLE001 -- the refutation stands on its own
+        result.precondition_note = (f"the exact precondition could not be computed "
+                                    f"(internal error: {type(exc).__name__}: {exc})")
+        return result
     result.exact_precondition = pre.exact
     result.suggested_assuming = pre.suggested
     result.precondition_note = pre.note
