@@ -48,7 +48,7 @@ class Judgement:
 def call_args(ob: Obligation, inputs: Dict[str, Any]) -> Tuple[list, dict]:
     args, kwargs = [], {}
     for p, kind in zip(ob.params, ob.kinds):
-        if kind == "positional":
+        if kind in ("positional-only", "positional"):
             args.append(inputs[p.name])
         else:
             kwargs[p.name] = inputs[p.name]
@@ -57,7 +57,8 @@ def call_args(ob: Obligation, inputs: Dict[str, Any]) -> Tuple[list, dict]:
 
 def call_text(ob: Obligation, inputs: Dict[str, Any]) -> str:
     """The call as a user would paste it."""
-    parts = [f"{p.name}={inputs[p.name]!r}" for p in ob.params]
+    parts = [repr(inputs[p.name]) if kind == "positional-only" else f"{p.name}={inputs[p.name]!r}"
+             for p, kind in zip(ob.params, ob.kinds)]
     return f"{ob.fn.__name__}({', '.join(parts)})"
 
 

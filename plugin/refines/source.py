@@ -47,7 +47,7 @@ class Obligation:
     line: int  # line of the @refines decorator
     fn_node: nodes.FunctionDef
     params: Tuple[ir.Var, ...]
-    kinds: Tuple[str, ...]  # "positional" / "keyword" per parameter
+    kinds: Tuple[str, ...]  # "positional-only" / "positional" / "keyword" per parameter
     relation: SpecPart
     assuming: Optional[SpecPart]
     raises: Tuple[Tuple[type, SpecPart], ...]
@@ -175,7 +175,7 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
         raise Untranslatable("signature", fn_node.lineno, {"construct": "*" + args.vararg})
     if args.kwarg:
         raise Untranslatable("signature", fn_node.lineno, {"construct": "**" + args.kwarg})
-    groups = [(args.posonlyargs or [], args.posonlyargs_annotations or [], "positional"),
+    groups = [(args.posonlyargs or [], args.posonlyargs_annotations or [], "positional-only"),
               (args.args or [], args.annotations or [], "positional"),
               (args.kwonlyargs or [], args.kwonlyargs_annotations or [], "keyword")]
     params, kinds = [], []
