@@ -37,7 +37,7 @@ def check_source(tmp_path: Path, source: str, timeout: float = 20.0,
     for fn in specced_functions(module):
         for index in range(len(runtime_specs(fn))):
             results.append(check_function(fn, index, str(path), module.__name__, timeout,
-                                          display_path=path.name))
+                                          show=lambda p: Path(p).name))
     return results
 
 

@@ -79,7 +79,7 @@ class RefinesItem(pytest.Item):
         from refines.verdict import ERROR, REFUTED, TESTED, UNKNOWN
 
         result = check_function(self.fn, self.index, str(self.path), self.module_name,
-                                timeout_of(self.config), display_path=self.rel_path)
+                                timeout_of(self.config), show=self.show)
         self.result = result
         self.user_properties.append((USER_PROPERTY, result.to_json(self.nodeid,
                                                                    self.rel_path)))
@@ -93,12 +93,16 @@ class RefinesItem(pytest.Item):
 
             pytest.skip(one_line(result))
 
+    def show(self, path: str) -> str:
+        """A file path as reports show it: relative to the rootdir when inside it."""
+        try:
+            return Path(path).resolve().relative_to(self.config.rootpath).as_posix()
+        except ValueError:
+            return str(path)
+
     @property
     def rel_path(self) -> str:
-        try:
-            return Path(self.path).resolve().relative_to(self.config.rootpath).as_posix()
-        except ValueError:
-            return str(self.path)
+        return self.show(str(self.path))
 
     def repr_failure(self, excinfo, style=None):
         if isinstance(excinfo.value, RefinesFailure):

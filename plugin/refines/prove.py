@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import time
 import traceback
-from typing import Any, Optional, Sequence
+from typing import Any, Callable, Sequence
 
 import z3
 
@@ -89,23 +89,23 @@ def check(ob: Obligation, timeout: float) -> Result:
         result = _check(ob, Budget(timeout), result)
     except Untranslatable as exc:
         result.verdict = UNKNOWN
-        result.reason = f"not translated: {exc.text} ({ob.path}:{exc.line})"
+        result.reason = f"not translated: {exc.text} ({ob.where(ob.path, exc.line)})"
         result.hint, result.message_key = exc.hint, exc.key
     except SpecError as exc:
         result.verdict = ERROR
-        result.reason = f"{exc.path or ob.path}:{exc.line}: {exc.text}"
+        result.reason = f"{ob.where(exc.path or ob.path, exc.line)}: {exc.text}"
         result.hint, result.message_key = exc.hint, exc.key
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         result.verdict = ERROR
         result.reason = (f"internal error while checking {ob.function} "
-                         f"({ob.path}:{ob.line}): {type(exc).__name__}: {exc}")
+                         f"({ob.where(ob.path, ob.line)}): {type(exc).__name__}: {exc}")
         result.notes.append(traceback.format_exc())
     result.seconds = time.perf_counter() - start
     return result
 
 
 def _base(ob: Obligation) -> Result:
-    return Result(verdict=ERROR, function=ob.function, path=ob.path, line=ob.line)
+    return Result(verdict=ERROR, function=ob.function, path=ob.show(ob.path), line=ob.line)
 
 
 def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
@@ -189,43 +189,35 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
                                   if k in part.params)
                 text, hint = format_message("spec-raising", role=f"`{part.role}`",
                                             exception=o.exception.__name__, inputs=shown)
-                return f"{part.path}:{part.line}: {text}", hint, "spec-raising"
+                return f"{ob.where(part.path, part.line)}: {text}", hint, "spec-raising"
     return None
 
 
 def check_function(fn, index: int, path: str, module: str, timeout: float,
-                   display_path: Optional[str] = None) -> Result:
-    """Read the ``index``-th spec of ``fn`` from source and check it."""
+                   show: Callable[[str], str] = str) -> Result:
+    """Read the ``index``-th spec of ``fn`` from source and check it.
+
+    ``show`` turns file paths into the form the report uses.
+    """
     from refines.source import read_obligation
 
     start = time.perf_counter()
-    shown = display_path or path
-    base = Result(verdict=ERROR, function=f"{module}.{fn.__qualname__}", path=shown,
+    base = Result(verdict=ERROR, function=f"{module}.{fn.__qualname__}", path=show(path),
                   line=fn.__code__.co_firstlineno)
     try:
-        ob = read_obligation(fn, index, path, module)
+        ob = read_obligation(fn, index, path, module, show)
     except Untranslatable as exc:
         base.verdict = UNKNOWN
-        base.reason = f"not translated: {exc.text} ({shown}:{exc.line})"
+        base.reason = f"not translated: {exc.text} ({show(path)}:{exc.line})"
         base.hint, base.message_key = exc.hint, exc.key
     except SpecError as exc:
-        base.reason = f"{_display(exc.path, path, shown)}:{exc.line}: {exc.text}"
+        base.reason = f"{show(exc.path or path)}:{exc.line}: {exc.text}"
         base.hint, base.message_key = exc.hint, exc.key
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         base.reason = (f"internal error while reading the spec of {base.function} "
-                       f"({shown}:{base.line}): {type(exc).__name__}: {exc}")
+                       f"({show(path)}:{base.line}): {type(exc).__name__}: {exc}")
         base.notes.append(traceback.format_exc())
     else:
-        result = check(ob, timeout)
-        result.path = shown
-        result.reason = result.reason and result.reason.replace(path, shown)
-        if result.counterexample is not None:
-            result.counterexample.violated_at = result.counterexample.violated_at.replace(
-                path, shown)
-        return result
+        return check(ob, timeout)
     base.seconds = time.perf_counter() - start
     return base
-
-
-def _display(p: Optional[str], path: str, shown: str) -> str:
-    return shown if p in (None, path) else p

@@ -76,10 +76,6 @@ def _call_part(part: SpecPart, values: Dict[str, Any]) -> Any:
     return part.runtime(*[values[name] for name in part.params])
 
 
-def where(part: SpecPart, line: Optional[int] = None) -> str:
-    return f"{part.path}:{line or part.line}"
-
-
 def judge(ob: Obligation, inputs: Dict[str, Any], outcome: Run) -> Judgement:
     """Does this run meet the spec? Evaluated by calling the spec's own lambdas."""
     required: List[Tuple[type, SpecPart]] = []
@@ -91,21 +87,21 @@ def judge(ob: Obligation, inputs: Dict[str, Any], outcome: Run) -> Judgement:
                                               for cls, _ in required):
             return Judgement(True)
         cls, part = required[0]
-        return Judgement(False, f"raises {cls.__name__} when {part.text}", where(part))
+        return Judgement(False, f"raises {cls.__name__} when {part.text}", ob.where(part.path, part.line))
     if outcome.raised is not None:
         exc = type(outcome.raised).__name__
         return Judgement(False, f"no raises= entry allows {exc}",
-                         where(ob.relation), detail=str(outcome.raised))
+                         ob.where(ob.relation.path, ob.relation.line), detail=str(outcome.raised))
     values = dict(inputs, result=outcome.returned)
     rel = ob.relation
     try:
         if _call_part(rel, values):
             return Judgement(True)
     except Exception as exc:  # noqa: BLE001 -- a relation that raises does not hold
-        return Judgement(False, rel.text, where(rel),
+        return Judgement(False, rel.text, ob.where(rel.path, rel.line),
                          detail=f"the relation raised {type(exc).__name__}: {exc}")
     text, line = failing_conjunct(rel, values)
-    return Judgement(False, text, where(rel, line))
+    return Judgement(False, text, ob.where(rel.path, line))
 
 
 def conjuncts(node: nodes.NodeNG, lines: List[bytes]) -> List[Tuple[str, int]]:

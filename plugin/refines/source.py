@@ -51,6 +51,10 @@ class Obligation:
     relation: SpecPart
     assuming: Optional[SpecPart]
     raises: Tuple[Tuple[type, SpecPart], ...]
+    show: Callable[[str], str] = str  # a file path as the report shows it
+
+    def where(self, path: str, line: int) -> str:
+        return f"{self.show(path)}:{line}"
 
     @property
     def function(self) -> str:
@@ -128,8 +132,12 @@ def find_function(fn: Callable, path: str) -> Tuple[nodes.FunctionDef, List[byte
     raise Untranslatable("statement", first_line, {"construct": "function without source"})
 
 
-def read_obligation(fn: Callable, index: int, path: str, module: str) -> Obligation:
-    """Pair the ``index``-th (0-based, source order) spec of ``fn`` with its source."""
+def read_obligation(fn: Callable, index: int, path: str, module: str,
+                    show: Callable[[str], str] = str) -> Obligation:
+    """Pair the ``index``-th (0-based, source order) spec of ``fn`` with its source.
+
+    ``show`` turns a file path into the form reports use (relative to the rootdir).
+    """
     fn_node, lines = find_function(fn, path)
     specs = runtime_specs(fn)
     globals_ = fn.__globals__
@@ -166,7 +174,7 @@ def read_obligation(fn: Callable, index: int, path: str, module: str) -> Obligat
     return Obligation(
         fn=fn, qualname=fn.__qualname__, module=module, path=path, line=call.lineno,
         fn_node=fn_node, params=params, kinds=kinds, relation=relation,
-        assuming=assuming, raises=tuple(raises))
+        assuming=assuming, raises=tuple(raises), show=show)
 
 
 def read_params(fn_node: nodes.FunctionDef, globals_: dict):
