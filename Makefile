@@ -15,7 +15,7 @@ $(STAMP): pyproject.toml
 # The main job, on the sample project: proved, refuted, and a suggested precondition.
 # pytest exits 1 because the sample has planted failures; the demo shows them.
 demo: $(STAMP)
-	cd sample_project && ../$(BIN)/python -m pytest -p no:cacheprovider --refines-report=../refines-report.json; \
+	cd sample_project && ../$(BIN)/python -m pytest -v -p no:cacheprovider --refines-report=../refines-report.json; \
 	status=$$?; echo; echo "JSON report: refines-report.json"; \
 	if [ $$status -eq 1 ]; then exit 0; else exit $$status; fi
 

@@ -250,3 +250,13 @@ def test_projects_without_specs_are_untouched(pytester):
     result.assert_outcomes(passed=1)
     assert "refines" not in result.stdout.str().split("short test summary")[0].lower() \
         or "refines:" not in result.stdout.str()
+
+
+def test_verbose_lines_name_the_verdict(project):
+    result = project.runpytest("-v", "-p", "no:cacheprovider")
+    result.stdout.fnmatch_lines_random([
+        "*specs.py::bump PROVED*", "*specs.py::shifted REFUTED*",
+        "*specs.py::looping UNKNOWN*", "*specs.py::misnamed SPEC ERROR*",
+    ])
+    strict = project.runpytest("-v", "--refines-strict", "-k", "looping", "-p", "no:cacheprovider")
+    strict.stdout.fnmatch_lines(["*specs.py::looping UNKNOWN (strict)*"])

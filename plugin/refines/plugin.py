@@ -112,6 +112,30 @@ def pytest_collect_file(file_path: Path, parent: pytest.Collector):
     return RefinesFile.from_parent(parent, path=file_path)
 
 
+# How each verdict shows in pytest's progress line: (category, letter, word).
+# The category keeps pytest's own counts and exit status; the word says which
+# verdict it was, so "proved" is never blurred with "passed" or "tested".
+_STATUS = {
+    "proved": ("passed", ".", "PROVED"),
+    "tested": ("passed", "t", "TESTED (not proved)"),
+    "refuted": ("failed", "F", "REFUTED"),
+    "error": ("failed", "F", "SPEC ERROR"),
+    "unknown": ("skipped", "s", "UNKNOWN"),
+}
+
+
+def pytest_report_teststatus(report, config):
+    if report.when != "call":
+        return None
+    for key, value in getattr(report, "user_properties", ()):
+        if key == USER_PROPERTY:
+            category, letter, word = _STATUS[value["verdict"]]
+            if report.outcome != category:  # --refines-strict turned it into a failure
+                return report.outcome, "F", word + " (strict)"
+            return category, letter, word
+    return None
+
+
 class Gatherer:
     """Gathers verdicts from reports and writes the summary and JSON report.
 
