@@ -79,3 +79,21 @@ def test_keyword_only_and_positional_only_parameters_are_called_correctly(tmp_pa
     assert call.startswith("gap(") and "a=" not in call and ", b=" in call
     gap = lambda a, /, *, b: a - b  # noqa: E731 -- the call must be valid Python
     eval(call, {"gap": gap})
+
+
+def test_functions_under_other_decorators_are_read_through_them(tmp_path):
+    results = check_source(tmp_path, '''
+        import functools
+
+        def logged(fn):
+            @functools.wraps(fn)
+            def wrapper(*args, **kwargs):
+                return fn(*args, **kwargs)
+            return wrapper
+
+        @logged
+        @refines(lambda x, result: result == x + 1)
+        def inc(x: int) -> int:
+            return x + 1
+        ''')
+    assert [r.verdict for r in results] == [PROVED]

@@ -109,6 +109,13 @@ MESSAGES: Dict[str, Message] = {
         "def f(*args: int) -> int:\n    return 0\n",
         "unsupported",
     ),
+    "async": Message(
+        "`{qualname}` is an async function; coroutines are not proved yet",
+        "specify a synchronous helper that holds the logic, and call it from the coroutine",
+        "@refines(lambda x, result: result == x)\n"
+        "async def f(x: int) -> int:\n    return x\n",
+        "unsupported",
+    ),
     "nested": Message(
         "`{qualname}` is defined inside another function or class; only "
         "module-level functions are proved in this release",
@@ -161,6 +168,14 @@ MESSAGES: Dict[str, Message] = {
         "a {role} is a condition: write a comparison or a combination of them",
         "@refines(lambda x, result: (result, x))\n"
         "def f(x: int) -> int:\n    return x\n",
+        "spec",
+    ),
+    "spec-result-param": Message(
+        "the function has a parameter named `result`, which the relation "
+        "reserves for the return value",
+        "rename the parameter (e.g. `outcome`)",
+        "@refines(lambda result: result >= 0)\n"
+        "def f(result: int) -> int:\n    return result\n",
         "spec",
     ),
     "spec-decorators": Message(

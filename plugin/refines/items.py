@@ -30,8 +30,10 @@ def specced_functions(module) -> List[Callable]:
     for obj in list(vars(module).values()):
         candidates = [obj]
         if inspect.isclass(obj) and obj.__module__ == module.__name__:
-            candidates = [inspect.unwrap(getattr(v, "__func__", v)) for v in vars(obj).values()]
-        for fn in candidates:
+            candidates = [getattr(v, "__func__", v) for v in vars(obj).values()]
+        # Through other decorators to the function as written: that is the
+        # body translated, so that is the body replayed.
+        for fn in (inspect.unwrap(c) if callable(c) else c for c in candidates):
             if (inspect.isfunction(fn) and getattr(fn, SPECS_ATTRIBUTE, None)
                     and fn.__module__ == module.__name__ and fn not in found):
                 found.append(fn)

@@ -149,8 +149,12 @@ def read_obligation(fn: Callable, index: int, path: str, module: str,
             path=path)
     call = decorators[index]
     spec = specs[index]
+    if isinstance(fn_node, nodes.AsyncFunctionDef):
+        raise Untranslatable("async", fn_node.lineno, {"qualname": fn.__qualname__})
     params, kinds = read_params(fn_node, globals_)
     names = tuple(p.name for p in params)
+    if "result" in names:
+        raise SpecError("spec-result-param", fn_node.lineno, path=path)
 
     if not call.args:
         raise SpecError("spec-form", call.lineno, {"role": "relation"}, path=path)
