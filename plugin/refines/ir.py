@@ -340,6 +340,36 @@ def render(t: Term) -> str:
     return _render(t, 0, {})
 
 
+def printed_size(t: Term) -> int:
+    """How many nodes ``render`` would print: a DAG that shares sub-terms can
+    print exponentially larger than it is, so callers check this first."""
+    memo: dict = {}
+    stack = [(t, False)]
+    while stack:
+        node, ready = stack.pop()
+        if id(node) in memo:
+            continue
+        kids = children(node)
+        if ready or not kids:
+            memo[id(node)] = 1 + sum(memo[id(k)] for k in kids)
+        else:
+            stack.append((node, True))
+            stack.extend((k, False) for k in kids if id(k) not in memo)
+    return memo[id(t)]
+
+
+def children(t: Term) -> tuple:
+    if isinstance(t, (Arith, Cmp)):
+        return (t.left, t.right)
+    if isinstance(t, (Neg, ToInt, Not)):
+        return (t.arg,)
+    if isinstance(t, (And, Or)):
+        return t.args
+    if isinstance(t, Ite):
+        return (t.cond, t.then, t.orelse)
+    return ()
+
+
 def _render(t: Term, ctx_prec: int, memo: dict) -> str:
     text, prec = _render_prec(t, memo)
     return f"({text})" if prec < ctx_prec else text

@@ -38,7 +38,7 @@ class Lowering:
             node, ready = stack.pop()
             if id(node) in memo:
                 continue
-            kids = _children(node)
+            kids = ir.children(node)
             if ready or not kids:
                 memo[id(node)] = self._node(node)
                 self._keep.append(node)
@@ -102,15 +102,3 @@ def floor_divmod(a: z3.ArithRef, b: z3.ArithRef, ctx: z3.Context):
     fix = z3.And(b < 0, r != 0)
     one = z3.IntVal(1, ctx)
     return z3.If(fix, q - one, q), z3.If(fix, r + b, r)
-
-
-def _children(t: ir.Term):
-    if isinstance(t, (ir.Arith, ir.Cmp)):
-        return (t.left, t.right)
-    if isinstance(t, (ir.Neg, ir.ToInt, ir.Not)):
-        return (t.arg,)
-    if isinstance(t, (ir.And, ir.Or)):
-        return t.args
-    if isinstance(t, ir.Ite):
-        return (t.cond, t.then, t.orelse)
-    return ()

@@ -33,6 +33,7 @@ from refines.obligation import allowed
 from refines.translate import Scope, parse_expression, translate_spec
 
 MAX_CUBES = 64
+MAX_PRINTED = 400  # nodes; past this a printed condition helps nobody
 
 
 @dataclass
@@ -51,8 +52,13 @@ def exact(ob, behaviour: ir.Behaviour, spec, solver) -> Preconditions:
     params = ob.params
     exact_text = readable(wp, ir.TRUE, params, solver)
     if exact_text is None:
-        return Preconditions(None, None, "the exact precondition could not be put "
-                                         "in a form that was checked equivalent")
+        if ir.printed_size(wp) > MAX_PRINTED:
+            why = (f"the exact precondition has {ir.printed_size(wp)} operations once "
+                   f"branches are expanded, too many to print readably")
+        else:
+            why = ("the printed form of the exact precondition could not be checked "
+                   "equivalent to the computed one within the budget, so it is not shown")
+        return Preconditions(None, None, why)
     tightened = ir.and_(spec.assuming.holds, wp)
     status, _, _ = solver.check(tightened)
     if status == z3.unsat:
@@ -98,6 +104,8 @@ def readable(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
         text = print_cubes(cubes)
         if _equivalent(text, target, context, params, solver):
             return text
+    if ir.printed_size(target) > MAX_PRINTED:
+        return None  # too large to be read, or even printed
     text = ir.render(target)  # unsimplified, but still Python with its meaning
     if _equivalent(text, target, context, params, solver):
         return text
@@ -356,10 +364,7 @@ def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
         n = stack.pop()
         if isinstance(n, ir.Var):
             best = min(best, order.get(n.name, len(order)))
-        for attr in ("left", "right", "arg", "cond", "then", "orelse"):
-            if hasattr(n, attr):
-                stack.append(getattr(n, attr))
-        stack.extend(getattr(n, "args", ()))
+        stack.extend(ir.children(n))
     return best
 
 
@@ -429,9 +434,7 @@ def _nonlinear(t: ir.Term) -> bool:
                 n.op == "*" and not isinstance(n.left, ir.Const)
                 and not isinstance(n.right, ir.Const))):
             return True
-        for attr in ("left", "right", "arg"):
-            if hasattr(n, attr):
-                stack.append(getattr(n, attr))
+        stack.extend(ir.children(n))
     return False
 
 
@@ -444,10 +447,7 @@ def _constants(t: ir.Term) -> set:
         seen.add(id(n))
         if isinstance(n, ir.Const) and n.sort == ir.INT:
             out.add(int(n.value))
-        for attr in ("left", "right", "arg", "cond", "then", "orelse"):
-            if hasattr(n, attr):
-                stack.append(getattr(n, attr))
-        stack.extend(getattr(n, "args", ()))
+        stack.extend(ir.children(n))
     return out
 
 
