@@ -146,37 +146,42 @@ def as_int(t: Term) -> Term:
 
 
 def and_(*args: Term) -> Term:
-    flat = []
-    for a in args:
-        if is_true(a):
-            continue
-        if is_false(a):
-            return FALSE
-        for b in (a.args if isinstance(a, And) else (a,)):
-            if not any(b is c for c in flat):  # the same term twice adds nothing
-                flat.append(b)
-    if not flat:
-        return TRUE
-    if len(flat) == 1:
-        return flat[0]
-    return And(tuple(flat))
+    return _junction(args, And, FALSE, TRUE)
 
 
 def or_(*args: Term) -> Term:
-    flat = []
+    return _junction(args, Or, TRUE, FALSE)
+
+
+def _junction(args, kind, absorbing: Const, neutral: Const) -> Term:
+    flat: list = []
+    seen: set = set()
     for a in args:
-        if is_false(a):
+        if a is neutral or (isinstance(a, Const) and a.value == neutral.value):
             continue
-        if is_true(a):
-            return TRUE
-        for b in (a.args if isinstance(a, Or) else (a,)):
-            if not any(b is c for c in flat):
+        if isinstance(a, Const):
+            return absorbing
+        for b in (a.args if isinstance(a, kind) else (a,)):
+            if id(b) not in seen:  # the same term twice adds nothing
+                seen.add(id(b))
                 flat.append(b)
     if not flat:
-        return FALSE
+        return neutral
     if len(flat) == 1:
         return flat[0]
-    return Or(tuple(flat))
+    return kind(tuple(flat))
+
+
+def conj(a: Term, b: Term) -> Term:
+    """``a and b`` without flattening ``a``: a path condition narrowed step by
+    step stays a shared chain, so n narrowings cost O(n), not O(n^2)."""
+    if is_true(a):
+        return b
+    if is_true(b):
+        return a
+    if is_false(a) or is_false(b):
+        return FALSE
+    return And((a, b))
 
 
 def not_(a: Term) -> Term:
@@ -404,12 +409,17 @@ def _render_node(t: Term, memo: dict):
         return f"{_render(t.left, p + 1, memo)} {t.op} {_render(t.right, p + 1, memo)}", p
     if isinstance(t, Not):
         return f"not {_render(t.arg, _PREC['not'], memo)}", _PREC["not"]
-    if isinstance(t, And):
-        p = _PREC["and"]
-        return " and ".join(_render(a, p + 1, memo) for a in t.args), p
-    if isinstance(t, Or):
-        p = _PREC["or"]
-        return " or ".join(_render(a, p + 1, memo) for a in t.args), p
+    if isinstance(t, (And, Or)):
+        # and/or are associative: print nested chains flat.
+        p = _PREC["and" if isinstance(t, And) else "or"]
+        parts, stack = [], list(reversed(t.args))
+        while stack:
+            a = stack.pop()
+            if type(a) is type(t):
+                stack.extend(reversed(a.args))
+            else:
+                parts.append(_render(a, p + 1, memo))
+        return (" and " if isinstance(t, And) else " or ").join(parts), p
     if isinstance(t, Ite):
         p = _PREC["ite"]
         return (f"{_render(t.then, p + 1, memo)} if {_render(t.cond, p + 1, memo)} "

@@ -26,10 +26,14 @@ from refines.source import Obligation
 from refines.translate import Scope, translate_body
 from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Result
 
-# z3 resource units per second of budget. The resource limit, unlike the
-# wall-clock timeout, makes "unknown" reproducible from run to run; the
-# timeout stays as a backstop. Measured with tests/benchmarks/bench_rlimit.py.
-RLIMIT_PER_SECOND = 4_000_000
+# The budget is counted in z3 resource units, not seconds: unlike a
+# wall-clock timeout, a resource limit gives the same verdict however loaded
+# the machine is. One second of budget buys the units z3 spends in a median
+# second here (tests/benchmarks/bench_rlimit.py measured 8.8 million; the
+# range was 3.5 to 21 million by kind of query). A wall-clock limit of
+# BACKSTOP times the budget stops queries that spend their units slowly.
+RLIMIT_PER_SECOND = 8_000_000
+BACKSTOP = 2.0
 
 
 class Budget:
@@ -37,9 +41,11 @@ class Budget:
 
     def __init__(self, seconds: float) -> None:
         self.seconds = seconds
-        self.deadline = time.perf_counter() + seconds
+        self.units = int(seconds * RLIMIT_PER_SECOND)
+        self.deadline = time.perf_counter() + seconds * BACKSTOP
 
     def remaining(self) -> float:
+        """Wall-clock seconds left before the backstop."""
         return max(0.0, self.deadline - time.perf_counter())
 
 
@@ -58,11 +64,15 @@ class Solver:
         remaining = self.budget.remaining()
         if remaining <= 0:
             return z3.unknown, None, "the solver budget ran out"
+        if self.budget.units <= 0:
+            return z3.unknown, None, "the solver budget ran out"
         s = z3.Solver(ctx=self.ctx)
         s.set("timeout", max(1, int(remaining * 1000)))
-        s.set("rlimit", max(1, int(remaining * RLIMIT_PER_SECOND)))
+        s.set("rlimit", self.budget.units)
         s.add(*[self.lower(t) for t in terms], *extra)
         status = s.check()
+        # Each query spends from the obligation's one budget of units.
+        self.budget.units -= _rlimit_spent(s)
         if status == z3.sat:
             return status, s.model(), None
         if status == z3.unknown:
@@ -79,6 +89,11 @@ class Solver:
         if v.sort == ir.BOOL:
             return z3.is_true(z)
         return z.as_long()
+
+
+def _rlimit_spent(s: z3.Solver) -> int:
+    stats = s.statistics()
+    return int(stats.get_key_value("rlimit count")) if "rlimit count" in stats.keys() else 0
 
 
 def check(ob: Obligation, timeout: float) -> Result:

@@ -84,14 +84,22 @@ def shape(v: ir.Value) -> str:
 
 def merge(cond: ir.Term, a, b):
     """The value that is ``a`` where ``cond`` holds and ``b`` elsewhere."""
-    if a is b:
+    if a is b or ir.is_true(cond):
         return a
+    if ir.is_false(cond):
+        return b
     if isinstance(a, Conflict) or isinstance(b, Conflict):
         return a if isinstance(a, Conflict) else b
     if isinstance(a, MaybeUnbound) or isinstance(b, MaybeUnbound):
         av, ab = (a.value, a.bound) if isinstance(a, MaybeUnbound) else (a, ir.TRUE)
         bv, bb = (b.value, b.bound) if isinstance(b, MaybeUnbound) else (b, ir.TRUE)
-        return MaybeUnbound(merge(cond, av, bv), ir.ite(cond, ab, bb))
+        bound = ir.ite(cond, ab, bb)
+        # Where a side is never bound its value is never read: take the other.
+        if ir.is_false(ab):
+            return MaybeUnbound(bv, bound)
+        if ir.is_false(bb):
+            return MaybeUnbound(av, bound)
+        return MaybeUnbound(merge(cond, av, bv), bound)
     if isinstance(a, ir.Term) and isinstance(b, ir.Term):
         return ir.ite(cond, a, b)
     if isinstance(a, ir.Tup) and isinstance(b, ir.Tup) and len(a.items) == len(b.items):
@@ -172,11 +180,11 @@ class Translator:
 
     def raise_when(self, cond: ir.Term, exc: type, line: int, cause: str) -> None:
         """Python raises ``exc`` here exactly when ``cond`` holds."""
-        guard = ir.and_(self.live, cond)
+        guard = ir.conj(self.live, cond)
         if ir.is_false(guard):
             return
         self.outcomes.append(ir.Outcome(guard, exception=exc, line=line, cause=cause))
-        self.live = ir.and_(self.live, ir.not_(cond))
+        self.live = ir.conj(self.live, ir.not_(cond))
 
     def finish(self, value: ir.Value, line: int) -> None:
         if not ir.is_false(self.live):
@@ -281,13 +289,13 @@ class Translator:
         """Run both branches from the current state and merge them."""
         start_env, start_live, start_count = self.env, self.live, len(self.outcomes)
 
-        self.env, self.live = dict(start_env), ir.and_(start_live, cond)
+        self.env, self.live = dict(start_env), ir.conj(start_live, cond)
         then_value = then()
         then_env, then_live = self.env, self.live
         then_ended = len(self.outcomes) != start_count
 
         mid_count = len(self.outcomes)
-        self.env, self.live = dict(start_env), ir.and_(start_live, ir.not_(cond))
+        self.env, self.live = dict(start_env), ir.conj(start_live, ir.not_(cond))
         else_value = orelse()
         else_env, else_live = self.env, self.live
         else_ended = len(self.outcomes) != mid_count
@@ -296,6 +304,14 @@ class Translator:
             self.live = start_live  # neither branch can end early
         else:
             self.live = ir.or_(then_live, else_live)
+        # A branch that cannot fall through contributes nothing to what
+        # follows: continue with the other branch's state alone.
+        if ir.is_false(then_live) and not ir.is_false(else_live):
+            self.env = else_env
+            return else_value, else_value
+        if ir.is_false(else_live) and not ir.is_false(then_live):
+            self.env = then_env
+            return then_value, then_value
         merged = {}
         for name in set(then_env) | set(else_env):
             if name in then_env and name in else_env:
@@ -309,11 +325,20 @@ class Translator:
 
     # ------------------------------------------------------------ expressions
 
+    def refuse(self, key: str, line: int, fields: dict) -> ir.Value:
+        """Give up on a construct -- unless it is unreachable, as after an
+        operation that always raises: Python never runs it, so neither do we."""
+        if ir.is_false(self.live):
+            return ir.const(0)
+        raise Untranslatable(key, line, fields)
+
     def expr(self, node: nodes.NodeNG) -> ir.Value:
+        if ir.is_false(self.live):
+            return ir.const(0)  # unreachable (e.g. after a certain raise): never runs
         method = getattr(self, "expr_" + type(node).__name__, None)
         if method is None:
             kind = type(node).__name__
-            raise Untranslatable("expression", node.lineno,
+            return self.refuse("expression", node.lineno,
                                  {"construct": _EXPRESSION_NAMES.get(kind, kind)})
         return method(node)
 
@@ -322,7 +347,7 @@ class Translator:
             return ir.NONE
         if isinstance(node.value, (bool, int)):
             return ir.const(node.value)
-        raise Untranslatable("value", node.lineno,
+        return self.refuse("value", node.lineno,
                              {"construct": node.as_string(),
                               "type": type(node.value).__name__})
 
@@ -333,7 +358,7 @@ class Translator:
         if name in self.env:
             value = self.env[name]
             if isinstance(value, Conflict):
-                raise Untranslatable("mixed", line,
+                return self.refuse("mixed", line,
                                      {"construct": name, "shapes": value.shapes})
             if isinstance(value, MaybeUnbound):
                 self.raise_when(ir.not_(value.bound), UnboundLocalError, line,
@@ -348,7 +373,7 @@ class Translator:
 
     def expr_Tuple(self, node: nodes.Tuple) -> ir.Value:
         if any(isinstance(e, nodes.Starred) for e in node.elts):
-            raise Untranslatable("expression", node.lineno, {"construct": "starred"})
+            return self.refuse("expression", node.lineno, {"construct": "starred"})
         return ir.Tup(tuple(self.expr(e) for e in node.elts))
 
     def expr_UnaryOp(self, node: nodes.UnaryOp) -> ir.Value:
@@ -362,7 +387,7 @@ class Translator:
             return ir.as_int(operand)
         if node.op == "~":  # ~x == -x - 1 for Python's unbounded ints
             return ir.arith("-", ir.neg(operand), ir.const(1))
-        raise Untranslatable("operator", node.lineno,
+        return self.refuse("operator", node.lineno,
                              {"op": node.op, "types": "int", "hint": ""})
 
     def expr_BinOp(self, node: nodes.BinOp) -> ir.Value:
@@ -392,17 +417,17 @@ class Translator:
                 return ir.or_(left, right)
             return ir.cmp("!=", left, right)
         if op == "/":
-            raise Untranslatable("operator", node.lineno, {
+            return self.refuse("operator", node.lineno, {
                 "op": "/", "types": "int operands",
                 "hint": "true division returns a float, which is not modelled yet; "
                         "use // for floor division"})
-        raise Untranslatable("operator", node.lineno, {
+        return self.refuse("operator", node.lineno, {
             "op": op, "types": "int operands",
             "hint": "bitwise and shift operators on ints are not modelled yet"})
 
     def power(self, base: ir.Term, exponent: ir.Term, node: nodes.NodeNG) -> ir.Term:
         if not (isinstance(exponent, ir.Const) and 0 <= exponent.value <= _MAX_POWER):
-            raise Untranslatable("power", node.lineno, {"construct": node.as_string()})
+            return self.refuse("power", node.lineno, {"construct": node.as_string()})
         # Square-and-multiply keeps the term small and shares the squares.
         result: ir.Term = ir.const(1)
         square, e = ir.as_int(base), int(exponent.value)
@@ -421,7 +446,7 @@ class Translator:
             tup, count = (left, right) if isinstance(left, ir.Tup) else (right, left)
             if isinstance(count, ir.Const) and count.sort == ir.INT:
                 return ir.Tup(tup.items * max(count.value, 0))
-        raise Untranslatable("operator", node.lineno, {
+        return self.refuse("operator", node.lineno, {
             "op": op, "types": "tuples",
             "hint": "tuples support + with a tuple and * by a constant int"})
 
@@ -453,7 +478,7 @@ class Translator:
     def merged(self, cond: ir.Term, a: ir.Value, b: ir.Value, node) -> ir.Value:
         value = merge(cond, a, b)
         if isinstance(value, Conflict):
-            raise Untranslatable("mixed", node.lineno,
+            return self.refuse("mixed", node.lineno,
                                  {"construct": node.as_string(), "shapes": value.shapes})
         return value
 
@@ -490,12 +515,12 @@ class Translator:
             if a is ir.NONE or b is ir.NONE:
                 same = ir.const(a is b)
                 return same if op == "is" else ir.not_(same)
-            raise Untranslatable("operator", node.lineno, {
+            return self.refuse("operator", node.lineno, {
                 "op": op, "types": "ints",
                 "hint": "`is` between ints depends on object identity; use =="})
         if op in ("in", "not in"):
             if not isinstance(b, ir.Tup):
-                raise Untranslatable("operator", node.lineno, {
+                return self.refuse("operator", node.lineno, {
                     "op": op, "types": "this right-hand side",
                     "hint": "`in` is modelled for tuples"})
             found = ir.or_(*(self.equal(a, item) for item in b.items))
@@ -518,20 +543,22 @@ class Translator:
 
     def lexicographic(self, op, a, b, node) -> ir.Term:
         # Sequence comparison (Language Reference, "Value comparisons"): the
-        # first unequal pair decides; if one is a prefix, the shorter is less.
+        # first pair that is not equal decides, by `op` on that pair alone
+        # (which may raise, e.g. None < 1); later items are never compared.
+        # If one is a prefix of the other, the shorter is less.
         if not a or not b:
             la, lb = len(a), len(b)
             return ir.const({"<": la < lb, "<=": la <= lb, ">": la > lb,
                              ">=": la >= lb}[op])
-        strict = "<" if op in ("<", "<=") else ">"
-        return ir.or_(self.compare(strict, a[0], b[0], node),
-                      ir.and_(self.equal(a[0], b[0]),
-                              self.lexicographic(op, a[1:], b[1:], node)))
+        same = self.equal(a[0], b[0])
+        rest, first = self.branches(same, lambda: self.lexicographic(op, a[1:], b[1:], node),
+                                    lambda: self.compare(op, a[0], b[0], node))
+        return ir.ite(same, rest, first)
 
     def expr_Subscript(self, node: nodes.Subscript) -> ir.Value:
         container = self.expr(node.value)
         if not isinstance(container, ir.Tup):
-            raise Untranslatable("expression", node.lineno,
+            return self.refuse("expression", node.lineno,
                                  {"construct": "subscript of a non-tuple"})
         if isinstance(node.slice, nodes.Slice):
             bounds = []
@@ -541,7 +568,7 @@ class Translator:
                     continue
                 v = self.expr(part)
                 if not isinstance(v, ir.Const):
-                    raise Untranslatable("expression", node.lineno,
+                    return self.refuse("expression", node.lineno,
                                          {"construct": "tuple slice with variable bounds"})
                 bounds.append(int(v.value))
             if bounds[2] == 0:
@@ -563,7 +590,7 @@ class Translator:
             hit = ir.or_(ir.cmp("==", index, ir.const(i)), ir.cmp("==", index, ir.const(i - n)))
             value = merge(hit, container.items[i], value)
         if isinstance(value, Conflict):
-            raise Untranslatable("mixed", node.lineno,
+            return self.refuse("mixed", node.lineno,
                                  {"construct": node.as_string(), "shapes": value.shapes})
         return value
 
@@ -580,7 +607,7 @@ class Translator:
             self.live = inner.live
             return value
         if node.keywords or any(isinstance(a, nodes.Starred) for a in node.args):
-            raise Untranslatable("call", node.lineno, {"callee": func.as_string()})
+            return self.refuse("call", node.lineno, {"callee": func.as_string()})
         for builtin_name, handler in (("abs", self.call_abs), ("min", self.call_minmax),
                                       ("max", self.call_minmax), ("int", self.call_int),
                                       ("bool", self.call_bool)):
@@ -589,7 +616,7 @@ class Translator:
                 result = handler(name, args, node)
                 if result is not None:
                     return result
-        raise Untranslatable("call", node.lineno, {"callee": func.as_string()})
+        return self.refuse("call", node.lineno, {"callee": func.as_string()})
 
     def call_abs(self, name, args, node):
         if len(args) == 1 and isinstance(args[0], ir.Term):

@@ -1,0 +1,104 @@
+"""Run the three benchmarks and print a plain-text summary (``make bench``).
+
+Run from the repository root: ``python tests/benchmarks/run_all.py``;
+``--quick`` takes fewer repeats (a smoke run, not numbers to quote).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import sys
+import time
+from typing import Optional, Sequence
+
+import z3
+
+import bench_overhead
+import bench_rlimit
+import bench_sequential_ifs
+from bench_overhead import ms
+
+
+def machine() -> str:
+    try:
+        load = "load average %.2f %.2f %.2f" % os.getloadavg()
+    except OSError:
+        load = "load average unknown"
+    return (f"{platform.platform()}, {os.cpu_count()} CPUs, {load}, Python "
+            f"{platform.python_version()}, z3 {z3.get_version_string()}")
+
+
+def main(argv: Optional[Sequence[str]] = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="few repeats: a smoke run")
+    args = parser.parse_args(argv)
+    overhead_repeats, seq_repeats, rl_repeats = (3, 3, 1) if args.quick else (20, 15, 3)
+
+    print(f"machine: {machine()}")
+    print("(times on a shared, noisy machine: compare medians, not single runs)\n")
+    started = time.perf_counter()
+
+    print("=" * 30, "1. overhead: full check vs raw solver", "=" * 30)
+    overhead = bench_overhead.run(overhead_repeats)
+    print()
+    print("=" * 30, "2. sequential ifs", "=" * 30)
+    sequential = bench_sequential_ifs.run(repeats=seq_repeats)
+    print()
+    print("=" * 30, "3. rlimit units per second", "=" * 30)
+    rlimit = bench_rlimit.run(repeats=rl_repeats)
+    print()
+
+    print("=" * 30, "summary", "=" * 30)
+    ratios = overhead["ratio_per_case_warm"]
+    print(f"overhead ratio, full check / raw z3 check(), all cases: "
+          f"{overhead['overhead_ratio_warm']:.1f}x warm, "
+          f"{overhead['overhead_ratio_cold']:.1f}x cold")
+    for label, ratio in ratios.items():
+        print(f"  {label:<26} {ratio:.1f}x")
+    print()
+    print("time against k (medians, ms; growth = t(k)/t(previous k), 2.0 = linear):")
+    for summary in sequential["families"]:
+        points = summary["points"]
+        print(f"  {summary['family']}:")
+        print(f"    {'k':>5}{'total':>10}{'growth':>8}{'plugin':>10}{'growth':>8}"
+              f"{'z3':>10}{'growth':>8}")
+        prev = None
+        for p in points:
+            g = (lambda a: f"{getattr(p, a) / getattr(prev, a):.2f}" if prev else "-")
+            print(f"    {p.k:>5}{ms(p.total):>10}{g('total'):>8}{ms(p.plugin):>10}"
+                  f"{g('plugin'):>8}{ms(p.z3_check):>10}{g('z3_check'):>8}"
+                  + ("" if p.verdict == "proved" else f"  ({p.verdict})"))
+            prev = p
+        if "fit_total_to_40" in summary:
+            a, b, worst = summary["fit_total_to_40"]
+            print(f"    total line, k <= 40: {ms(a)} ms + {b * 1e6:.1f} us/if (worst point "
+                  f"off by {worst:.0%})")
+        a, b, worst = summary["fit_plugin"]
+        print(f"    plugin line: {ms(a)} ms + {b * 1e6:.1f} us/if (worst point off by "
+              f"{worst:.0%})")
+    if sequential["scaling"]:
+        print("  the plugin alone at large k, nothing solved (translate ms, lower ms, IR links;"
+              " growth per doubling):")
+        for family, rows in sequential["scaling"].items():
+            cells = []
+            for i, (k, tr, lo, links) in enumerate(rows):
+                if i == 0:
+                    cells.append(f"k={k}: {ms(tr)}, {ms(lo)}, {links}")
+                else:
+                    _, ptr, plo, plinks = rows[i - 1]
+                    cells.append(f"k={k}: x{tr / ptr:.1f}, x{lo / plo:.1f}, x{links / plinks:.1f}")
+            print(f"    {family:<14} " + "; ".join(cells))
+    print()
+    print("rlimit units per second (median of runs stopped by the timeout):")
+    for kind, rate in rlimit["by_kind"].items():
+        print(f"  {kind:<13} {rate:>14,.0f}")
+    print(f"  {'all':<13} {rlimit['overall']:>14,.0f}   (slowest run "
+          f"{rlimit['slowest']:,.0f}; prove.RLIMIT_PER_SECOND = {rlimit['current']:,})")
+    print(f"\ntotal benchmark time: {time.perf_counter() - started:.0f} s")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
