@@ -256,7 +256,23 @@ def test_verbose_lines_name_the_verdict(project):
     result = project.runpytest("-v", "-p", "no:cacheprovider")
     result.stdout.fnmatch_lines_random([
         "*specs.py::bump PROVED*", "*specs.py::shifted REFUTED*",
-        "*specs.py::looping UNKNOWN*", "*specs.py::misnamed SPEC ERROR*",
+        "*specs.py::looping UNKNOWN*", "*specs.py::misnamed ERROR*",
     ])
     strict = project.runpytest("-v", "--refines-strict", "-k", "looping", "-p", "no:cacheprovider")
     strict.stdout.fnmatch_lines(["*specs.py::looping UNKNOWN (strict)*"])
+
+
+def test_skips_point_at_the_users_function(project):
+    result = project.runpytest("-rs", "-k", "looping", "-p", "no:cacheprovider")
+    line = line_of(project, "specs.py", "def looping")
+    result.stdout.fnmatch_lines([f"UNKNOWN [[]1[]] specs.py:{line - 1}: refines unknown:*"])
+    assert "items.py" not in result.stdout.str()
+
+
+def test_junitxml_properties_carry_the_json_record(project):
+    project.runpytest("--junitxml=out.xml", "-k", "shifted", "-p", "no:cacheprovider")
+    import xml.etree.ElementTree as ET
+
+    prop = ET.parse(project.path / "out.xml").find(".//property[@name='refines']")
+    record = json.loads(prop.get("value"))
+    assert record["verdict"] == "refuted" and record["exact_precondition"] == "x > 4"

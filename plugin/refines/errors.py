@@ -80,10 +80,16 @@ MESSAGES: Dict[str, Message] = {
     ),
     "param-type": Message(
         "parameter `{name}` has the type hint `{hint_text}`, which is not modelled yet",
-        "this release proves functions whose parameters are annotated int or "
-        "bool (an unannotated parameter is taken as int)",
+        "this release proves functions whose parameters are annotated `int` or `bool`",
         "@refines(lambda s, result: result == s)\n"
         "def f(s: str) -> str:\n    return s\n",
+        "unsupported",
+    ),
+    "param-untyped": Message(
+        "parameter `{name}` has no type hint; the hint says which values to prove for",
+        "annotate it `int` or `bool`",
+        "@refines(lambda s, result: result == s)\n"
+        "def f(s):\n    return s\n",
         "unsupported",
     ),
     "name": Message(
@@ -114,6 +120,17 @@ MESSAGES: Dict[str, Message] = {
         "specify a synchronous helper that holds the logic, and call it from the coroutine",
         "@refines(lambda x, result: result == x)\n"
         "async def f(x: int) -> int:\n    return x\n",
+        "unsupported",
+    ),
+    "wrapped": Message(
+        "the @refines spec on `{qualname}` sits above another decorator, so it "
+        "describes the wrapper that decorator returns, which is not translated",
+        "put @refines directly above `def` (below the other decorators); the proof "
+        "then covers the function as written, not what the decorators add",
+        "import functools\n\ndef logged(fn):\n    @functools.wraps(fn)\n"
+        "    def wrapper(*args, **kwargs):\n        return fn(*args, **kwargs)\n"
+        "    return wrapper\n\n@refines(lambda x, result: result == x)\n@logged\n"
+        "def f(x: int) -> int:\n    return x\n",
         "unsupported",
     ),
     "nested": Message(

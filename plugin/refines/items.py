@@ -8,6 +8,7 @@ it stays fast. Everything heavy happens in ``runtest``.
 from __future__ import annotations
 
 import inspect
+import json
 from pathlib import Path
 from typing import Callable, Iterator, List, Optional
 
@@ -31,13 +32,18 @@ def specced_functions(module) -> List[Callable]:
         candidates = [obj]
         if inspect.isclass(obj) and obj.__module__ == module.__name__:
             candidates = [getattr(v, "__func__", v) for v in vars(obj).values()]
-        # Through other decorators to the function as written: that is the
-        # body translated, so that is the body replayed.
-        for fn in (inspect.unwrap(c) if callable(c) else c for c in candidates):
-            if (inspect.isfunction(fn) and getattr(fn, SPECS_ATTRIBUTE, None)
-                    and fn.__module__ == module.__name__ and fn not in found):
+        for c in candidates:
+            if not (callable(c) and getattr(c, SPECS_ATTRIBUTE, None)):
+                continue
+            # Through other decorators to the function as written: that body is
+            # translated, so that body is replayed. Specs that sit above another
+            # decorator stay on the wrapper, which the check reports as such.
+            inner = inspect.unwrap(c)
+            fn = inner if getattr(inner, SPECS_ATTRIBUTE, None) else c
+            if (inspect.isfunction(fn) and inspect.unwrap(fn).__module__ == module.__name__
+                    and fn not in found):
                 found.append(fn)
-    found.sort(key=lambda f: f.__code__.co_firstlineno)
+    found.sort(key=lambda f: inspect.unwrap(f).__code__.co_firstlineno)
     return found
 
 
@@ -83,8 +89,9 @@ class RefinesItem(pytest.Item):
         result = check_function(self.fn, self.index, str(self.path), self.module_name,
                                 timeout_of(self.config), show=self.show)
         self.result = result
-        self.user_properties.append((USER_PROPERTY, result.to_json(self.nodeid,
-                                                                   self.rel_path)))
+        # JSON text: readable in --junitxml properties, and plain data for xdist.
+        self.user_properties.append((USER_PROPERTY, json.dumps(
+            result.to_json(self.nodeid, self.rel_path))))
         strict = self.config.getoption("refines_strict")
         if result.verdict in (REFUTED, ERROR):
             raise RefinesFailure(result)
@@ -93,7 +100,8 @@ class RefinesItem(pytest.Item):
         if result.verdict == UNKNOWN:
             from refines.report import one_line
 
-            pytest.skip(one_line(result))
+            # Reported at the user's function, not at this line of the plugin.
+            raise pytest.skip.Exception(one_line(result), _use_item_location=True)
 
     def show(self, path: str) -> str:
         """A file path as reports show it: relative to the rootdir when inside it."""
@@ -115,5 +123,5 @@ class RefinesItem(pytest.Item):
         return super().repr_failure(excinfo)
 
     def reportinfo(self):
-        line: Optional[int] = self.fn.__code__.co_firstlineno - 1
+        line: Optional[int] = inspect.unwrap(self.fn).__code__.co_firstlineno - 1
         return self.path, line, f"refines: {self.name}"

@@ -119,7 +119,7 @@ _STATUS = {
     "proved": ("passed", ".", "PROVED"),
     "tested": ("passed", "t", "TESTED (not proved)"),
     "refuted": ("failed", "F", "REFUTED"),
-    "error": ("failed", "F", "SPEC ERROR"),
+    "error": ("failed", "F", "ERROR"),
     "unknown": ("skipped", "s", "UNKNOWN"),
 }
 
@@ -129,7 +129,7 @@ def pytest_report_teststatus(report, config):
         return None
     for key, value in getattr(report, "user_properties", ()):
         if key == USER_PROPERTY:
-            category, letter, word = _STATUS[value["verdict"]]
+            category, letter, word = _STATUS[json.loads(value)["verdict"]]
             if report.outcome != category:  # --refines-strict turned it into a failure
                 return report.outcome, "F", word + " (strict)"
             return category, letter, word
@@ -153,7 +153,7 @@ class Gatherer:
             return
         for key, value in report.user_properties:
             if key == USER_PROPERTY:
-                self.results.append(value)
+                self.results.append(json.loads(value))
 
     def pytest_terminal_summary(self, terminalreporter) -> None:
         if not self.results:

@@ -159,14 +159,16 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
             f"the translation predicted it {predicted} and breaks the spec, but the "
             f"real call {actual.describe()}, which "
             + ("meets the spec" if judgement.holds else "is outside `assuming`"))
-        result.hint = "please report this as a bug in pytest-refines"
+        result.hint = ("if Python runs with -O, asserts are skipped and this is "
+                       "expected (the translation models asserts as enabled); "
+                       "otherwise please report it as a bug in pytest-refines")
         return result
     result.verdict = REFUTED
     result.counterexample = Counterexample(
         inputs={k: repr(v) for k, v in inputs.items()},
         call=replay.call_text(ob, inputs), outcome=actual.outcome, confirmed=True,
         violated=judgement.violated, violated_at=judgement.violated_at,
-        detail=judgement.detail or (actual.describe() if actual.raised else ""))
+        detail=judgement.detail or (str(actual.raised) if actual.raised else ""))
 
     try:
         pre = precondition.exact(ob, behaviour, spec, solver)

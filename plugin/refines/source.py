@@ -8,6 +8,7 @@ translate, their lines). This module pairs the two into an ``Obligation``.
 from __future__ import annotations
 
 import builtins
+import inspect
 import os
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Tuple
@@ -116,6 +117,10 @@ def _resolves_to(expr: nodes.NodeNG, globals_: dict, target: object) -> bool:
 
 
 def find_function(fn: Callable, path: str) -> Tuple[nodes.FunctionDef, List[bytes]]:
+    if getattr(fn, "__wrapped__", None) is not None:
+        inner = inspect.unwrap(fn)
+        raise Untranslatable("wrapped", inner.__code__.co_firstlineno,
+                             {"qualname": inner.__qualname__})
     module, lines = parse_file(path)
     qualname = fn.__qualname__
     if "." in qualname:
@@ -201,8 +206,7 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
 
 def param_sort(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node) -> str:
     if ann is None:
-        raise Untranslatable("param-type", fn_node.lineno,
-                             {"name": name, "hint_text": "(none)"})
+        raise Untranslatable("param-untyped", fn_node.lineno, {"name": name})
     text = ann.value if isinstance(ann, nodes.Const) and isinstance(ann.value, str) \
         else ann.as_string()
     for cls, sort in _SORTS.items():

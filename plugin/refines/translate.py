@@ -625,6 +625,14 @@ class Translator:
         return None
 
     def call_minmax(self, name, args, node):
+        if len(args) == 1 and isinstance(args[0], ir.Tup):
+            args = list(args[0].items)  # min((a, b, c)) is min(a, b, c)
+            if not args:
+                self.raise_when(ir.TRUE, ValueError, node.lineno,
+                                f"{name}() of an empty sequence")
+                return ir.const(0)
+            if len(args) == 1 and isinstance(args[0], ir.Term):
+                return args[0]
         if len(args) < 2 or not all(isinstance(a, ir.Term) for a in args):
             return None
         # CPython keeps the first extreme item: replace only on strict improvement.
