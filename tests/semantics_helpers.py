@@ -18,6 +18,7 @@ from __future__ import annotations
 import atexit
 import importlib.util
 import itertools
+import operator
 import os
 import shutil
 import sys
@@ -237,3 +238,40 @@ def check_agrees(source: str, ints: Sequence[int] = SMALL, name: str = "f") -> T
     bad = t.agrees(*inputs_for(t.behaviour.params, ints))
     assert not bad, "\n".join(bad[:10]) + f"\n{len(bad)} mismatches\n{t.behaviour!r}"
     return t
+
+
+# ---- a reference evaluator for IR terms, with CPython's own operators
+
+ARITH = {"+": operator.add, "-": operator.sub, "*": operator.mul,
+          "//": operator.floordiv, "%": operator.mod}
+CMP = {"<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge,
+        "==": operator.eq, "!=": operator.ne}
+
+
+def py_eval(t: ir.Term, env: dict):
+    """CPython's value of a term (Python's operators; short-circuit and/or/ite)."""
+    if isinstance(t, ir.Var):
+        return env[t.name]
+    if isinstance(t, ir.Const):
+        return t.value
+    if isinstance(t, ir.Arith):
+        return ARITH[t.op](py_eval(t.left, env), py_eval(t.right, env))
+    if isinstance(t, ir.Neg):
+        return -py_eval(t.arg, env)
+    if isinstance(t, ir.ToInt):
+        return int(py_eval(t.arg, env))
+    if isinstance(t, ir.Cmp):
+        return CMP[t.op](py_eval(t.left, env), py_eval(t.right, env))
+    if isinstance(t, ir.Not):
+        return not py_eval(t.arg, env)
+    if isinstance(t, (ir.And, ir.Or)):
+        stop_on = isinstance(t, ir.Or)
+        value = not stop_on
+        for a in t.args:
+            value = py_eval(a, env)
+            if bool(value) == stop_on:
+                return value
+        return value
+    if isinstance(t, ir.Ite):
+        return py_eval(t.then, env) if py_eval(t.cond, env) else py_eval(t.orelse, env)
+    raise TypeError(t)

@@ -10,53 +10,22 @@ from __future__ import annotations
 
 import ast
 import itertools
-import operator
+
 import random
 
 import pytest
 
 from refines import ir
 
+from semantics_helpers import ARITH, CMP, py_eval
+
 INT_VALUES = (-(10**30), -7, -2, -1, 0, 1, 2, 3, 7, 10**30)
 BOOL_VALUES = (False, True)
-_ARITH = {"+": operator.add, "-": operator.sub, "*": operator.mul,
-          "//": operator.floordiv, "%": operator.mod}
-_CMP = {"<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge,
-        "==": operator.eq, "!=": operator.ne}
 
 X, Y = ir.Var("x", ir.INT), ir.Var("y", ir.INT)
 P, Q = ir.Var("p", ir.BOOL), ir.Var("q", ir.BOOL)
 ENVS = [dict(x=x, y=y, p=p, q=q) for x, y, p, q in itertools.product(
     (-7, -1, 0, 2, 10**30), (-3, 0, 1, 5), BOOL_VALUES, BOOL_VALUES)]
-
-
-def py_eval(t: ir.Term, env: dict):
-    """CPython's value of a term (Python's operators; short-circuit and/or/ite)."""
-    if isinstance(t, ir.Var):
-        return env[t.name]
-    if isinstance(t, ir.Const):
-        return t.value
-    if isinstance(t, ir.Arith):
-        return _ARITH[t.op](py_eval(t.left, env), py_eval(t.right, env))
-    if isinstance(t, ir.Neg):
-        return -py_eval(t.arg, env)
-    if isinstance(t, ir.ToInt):
-        return int(py_eval(t.arg, env))
-    if isinstance(t, ir.Cmp):
-        return _CMP[t.op](py_eval(t.left, env), py_eval(t.right, env))
-    if isinstance(t, ir.Not):
-        return not py_eval(t.arg, env)
-    if isinstance(t, (ir.And, ir.Or)):
-        stop_on = isinstance(t, ir.Or)
-        value = not stop_on
-        for a in t.args:
-            value = py_eval(a, env)
-            if bool(value) == stop_on:
-                return value
-        return value
-    if isinstance(t, ir.Ite):
-        return py_eval(t.then, env) if py_eval(t.cond, env) else py_eval(t.orelse, env)
-    raise TypeError(t)
 
 
 def outcome(thunk):
@@ -84,7 +53,7 @@ def same_meaning(folded: ir.Term, raw: ir.Term, envs=ENVS) -> bool:
 
 # ---------------------------------------------------------------- folding constants
 
-@pytest.mark.parametrize("op", sorted(_ARITH))
+@pytest.mark.parametrize("op", sorted(ARITH))
 def test_arith_on_constants_folds_to_pythons_value(op):
     values = INT_VALUES + BOOL_VALUES
     for a, b in itertools.product(values, values):
@@ -95,10 +64,10 @@ def test_arith_on_constants_folds_to_pythons_value(op):
             assert not isinstance(t, ir.Const), (a, op, b, t)
             continue
         assert isinstance(t, ir.Const) and t.sort == ir.INT, (a, op, b, t)
-        assert t.value == _ARITH[op](a, b) and type(t.value) is int, (a, op, b, t)
+        assert t.value == ARITH[op](a, b) and type(t.value) is int, (a, op, b, t)
 
 
-@pytest.mark.parametrize("op", sorted(_CMP))
+@pytest.mark.parametrize("op", sorted(CMP))
 def test_cmp_on_constants_folds_to_pythons_value(op):
     # Python Language Reference, 6.10.1 "Value comparisons": bools compare as the
     # ints 0 and 1, so True == 1 and False < 1 hold.
@@ -106,7 +75,7 @@ def test_cmp_on_constants_folds_to_pythons_value(op):
     for a, b in itertools.product(values, values):
         t = ir.cmp(op, ir.const(a), ir.const(b))
         assert isinstance(t, ir.Const) and t.sort == ir.BOOL, (a, op, b)
-        assert t.value is _CMP[op](a, b), (a, op, b)
+        assert t.value is CMP[op](a, b), (a, op, b)
 
 
 def test_neg_and_as_int_fold_constants():
@@ -210,7 +179,7 @@ def random_term(rnd: random.Random, sort: str, depth: int, smart: bool, pool: li
     if sort == ir.INT:
         kind = rnd.choice(("arith", "arith", "arith", "neg", "toint", "ite"))
         if kind == "arith":
-            t = A(rnd.choice(sorted(_ARITH)), sub(ir.INT), sub(ir.INT))
+            t = A(rnd.choice(sorted(ARITH)), sub(ir.INT), sub(ir.INT))
         elif kind == "neg":
             t = ir.neg(sub(ir.INT)) if smart else ir.Neg(sub(ir.INT))
         elif kind == "toint":
@@ -221,7 +190,7 @@ def random_term(rnd: random.Random, sort: str, depth: int, smart: bool, pool: li
     else:
         kind = rnd.choice(("cmp", "cmp", "not", "and", "or", "ite", "booleq"))
         if kind == "cmp":
-            t = C(rnd.choice(sorted(_CMP)), sub(ir.INT), sub(ir.INT))
+            t = C(rnd.choice(sorted(CMP)), sub(ir.INT), sub(ir.INT))
         elif kind == "booleq":
             t = C(rnd.choice(("==", "!=")), sub(ir.BOOL), sub(ir.BOOL))
         elif kind == "not":

@@ -7,7 +7,7 @@ and the result is compared with CPython on thousands of operand pairs.
 
 from __future__ import annotations
 
-import operator
+
 import random
 
 import pytest
@@ -16,7 +16,7 @@ import z3
 from refines import ir
 from refines.lower import Lowering, floor_divmod
 
-from semantics_helpers import Evaluator, translated
+from semantics_helpers import ARITH, CMP, Evaluator, py_eval, translated
 
 # ---------------------------------------------------------------- operand pairs
 
@@ -188,45 +188,6 @@ def test_floor_divmod_differs_from_native_division_where_python_does():
 
 _INT_VARS = (ir.Var("x", ir.INT), ir.Var("y", ir.INT))
 _BOOL_VARS = (ir.Var("p", ir.BOOL), ir.Var("q", ir.BOOL))
-_ARITH = {"+": operator.add, "-": operator.sub, "*": operator.mul,
-          "//": operator.floordiv, "%": operator.mod}
-_CMP = {"<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge,
-        "==": operator.eq, "!=": operator.ne}
-
-
-def py_eval(t: ir.Term, env: dict):
-    """CPython's value of a term, computed with Python's own operators."""
-    if isinstance(t, ir.Var):
-        return env[t.name]
-    if isinstance(t, ir.Const):
-        return t.value
-    if isinstance(t, ir.Arith):
-        return _ARITH[t.op](py_eval(t.left, env), py_eval(t.right, env))
-    if isinstance(t, ir.Neg):
-        return -py_eval(t.arg, env)
-    if isinstance(t, ir.ToInt):
-        return int(py_eval(t.arg, env))
-    if isinstance(t, ir.Cmp):
-        return _CMP[t.op](py_eval(t.left, env), py_eval(t.right, env))
-    if isinstance(t, ir.Not):
-        return not py_eval(t.arg, env)
-    if isinstance(t, ir.And):
-        value = True
-        for a in t.args:  # Python's `and`: stop at the first false operand
-            value = py_eval(a, env)
-            if not value:
-                return value
-        return value
-    if isinstance(t, ir.Or):
-        value = False
-        for a in t.args:
-            value = py_eval(a, env)
-            if value:
-                return value
-        return value
-    if isinstance(t, ir.Ite):
-        return py_eval(t.then, env) if py_eval(t.cond, env) else py_eval(t.orelse, env)
-    raise TypeError(t)
 
 
 def random_term(rnd: random.Random, sort: str, depth: int, pool: list) -> ir.Term:
@@ -244,7 +205,7 @@ def random_term(rnd: random.Random, sort: str, depth: int, pool: list) -> ir.Ter
     if sort == ir.INT:
         kind = rnd.choice(("arith", "arith", "arith", "neg", "toint", "ite"))
         if kind == "arith":
-            t = ir.arith(rnd.choice(list(_ARITH)), sub(ir.INT), sub(ir.INT))
+            t = ir.arith(rnd.choice(list(ARITH)), sub(ir.INT), sub(ir.INT))
         elif kind == "neg":
             t = ir.neg(sub(ir.INT))
         elif kind == "toint":
@@ -254,7 +215,7 @@ def random_term(rnd: random.Random, sort: str, depth: int, pool: list) -> ir.Ter
     else:
         kind = rnd.choice(("cmp", "cmp", "not", "and", "or", "ite", "booleq"))
         if kind == "cmp":
-            t = ir.cmp(rnd.choice(list(_CMP)), sub(ir.INT), sub(ir.INT))
+            t = ir.cmp(rnd.choice(list(CMP)), sub(ir.INT), sub(ir.INT))
         elif kind == "booleq":
             t = ir.cmp(rnd.choice(("==", "!=")), sub(ir.BOOL), sub(ir.BOOL))
         elif kind == "not":
@@ -313,7 +274,7 @@ def test_lowered_terms_evaluate_like_cpython():
     assert compared > 1500 and skipped > 0  # the sample exercised both kinds of state
 
 
-@pytest.mark.parametrize("op", sorted(_ARITH))
+@pytest.mark.parametrize("op", sorted(ARITH))
 @pytest.mark.parametrize("x, y", [(7, 2), (7, -2), (-7, 2), (-7, -2), (0, -3), (6, -3),
                                   (10**30 + 1, -(10**15)), (True, -1)])
 def test_each_arithmetic_operator(op, x, y):
@@ -321,7 +282,7 @@ def test_each_arithmetic_operator(op, x, y):
     lower = Lowering(ctx)
     a, b = ir.Var("x", ir.INT), ir.Var("y", ir.INT)
     e = lower(ir.Arith(op, a, b))
-    assert z3_value(lower, e, dict(x=int(x), y=y, p=False, q=False)) == _ARITH[op](x, y)
+    assert z3_value(lower, e, dict(x=int(x), y=y, p=False, q=False)) == ARITH[op](x, y)
 
 
 def test_bool_terms_lower_to_python_ints():
