@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import time
 import traceback
-from typing import Any, Callable, Sequence
+from typing import Any, Callable
 
 import z3
 
@@ -56,20 +56,16 @@ class Solver:
         self.ctx = z3.Context()
         self.lower = Lowering(self.ctx)
         self.budget = budget
-        self.queries = 0
 
-    def check(self, *terms: ir.Term, extra: Sequence[z3.ExprRef] = ()):
-        """``(status, model)`` for the conjunction of ``terms``."""
-        self.queries += 1
+    def check(self, *terms: ir.Term):
+        """``(status, model, why unknown)`` for the conjunction of ``terms``."""
         remaining = self.budget.remaining()
-        if remaining <= 0:
-            return z3.unknown, None, "the solver budget ran out"
-        if self.budget.units <= 0:
+        if remaining <= 0 or self.budget.units <= 0:
             return z3.unknown, None, "the solver budget ran out"
         s = z3.Solver(ctx=self.ctx)
         s.set("timeout", max(1, int(remaining * 1000)))
         s.set("rlimit", self.budget.units)
-        s.add(*[self.lower(t) for t in terms], *extra)
+        s.add(*[self.lower(t) for t in terms])
         status = s.check()
         # Each query spends from the obligation's one budget of units.
         self.budget.units -= _rlimit_spent(s)

@@ -227,9 +227,9 @@ class Instrumented:
     def _capturing_check(self, fn: Callable) -> Callable:
         inst = self
 
-        def check(solver, *terms, extra=()):
+        def check(solver, *terms):
             if inst.capture:
-                lowered = [solver.lower(t) for t in terms] + list(extra)
+                lowered = [solver.lower(t) for t in terms]
                 s = z3.Solver(ctx=solver.ctx)
                 s.add(*lowered)
                 outer = [f[0] for f in inst._stack[:-1]]
@@ -240,7 +240,7 @@ class Instrumented:
                 nodes, edges = z3_size(lowered)
                 inst.queries.append(Query(phase, s.sexpr(), tuple(terms), nodes, edges))
                 del s, lowered
-            return fn(solver, *terms, extra=extra)
+            return fn(solver, *terms)
 
         return check
 
