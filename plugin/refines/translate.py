@@ -675,27 +675,44 @@ class Translator:
         return obj
 
     def harmless(self, node: nodes.NodeNG) -> None:
-        """Accept exception messages that cannot raise while being built."""
+        """Accept exception arguments and assert messages that cannot raise
+        while being built; their value never matters to a spec."""
+        if not self._harmless(node):
+            raise Untranslatable("expression", node.lineno,
+                                 {"construct": "exception message " + node.as_string()})
+
+    def _harmless(self, node: nodes.NodeNG) -> bool:
         if isinstance(node, nodes.Const):
-            return
-        if isinstance(node, nodes.Name) and (
-                (node.name in self.env and not isinstance(self.env[node.name], MaybeUnbound))
-                or (node.name not in self.scope.function_locals
-                    and (node.name in self.scope.globals or hasattr(builtins, node.name)))):
-            return
+            return True
+        if isinstance(node, nodes.Name):
+            return self._bound(node.name)
+        if isinstance(node, nodes.Tuple):
+            return all(self._harmless(e) for e in node.elts)
+        return self._text(node)
+
+    def _text(self, node: nodes.NodeNG) -> bool:
+        """A str built without any way to raise: literals, f-strings without
+        format specs, str()/repr() of harmless values, and + between them."""
+        if isinstance(node, nodes.Const):
+            return isinstance(node.value, str)
         if isinstance(node, nodes.JoinedStr):
-            for part in node.values:
-                if isinstance(part, nodes.FormattedValue):
-                    if part.format_spec is not None:
-                        break
-                    try:
-                        self.harmless(part.value)
-                    except Untranslatable:
-                        break
-            else:
-                return
-        raise Untranslatable("expression", node.lineno,
-                             {"construct": "exception message " + node.as_string()})
+            return all(not isinstance(p, nodes.FormattedValue)
+                       or (p.format_spec is None and self._harmless(p.value))
+                       for p in node.values)
+        if isinstance(node, nodes.BinOp) and node.op == "+":
+            return self._text(node.left) and self._text(node.right)
+        if (isinstance(node, nodes.Call) and isinstance(node.func, nodes.Name)
+                and node.func.name in ("str", "repr") and len(node.args) == 1
+                and not node.keywords):
+            return (self.scope.is_builtin(node.func.name, getattr(builtins, node.func.name))
+                    and self._harmless(node.args[0]))
+        return False
+
+    def _bound(self, name: str) -> bool:
+        if name in self.env:
+            return not isinstance(self.env[name], (MaybeUnbound, Conflict))
+        return name not in self.scope.function_locals and (
+            name in self.scope.globals or hasattr(builtins, name))
 
 
 # ---------------------------------------------------------------- entry points
