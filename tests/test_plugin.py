@@ -276,3 +276,42 @@ def test_junitxml_properties_carry_the_json_record(project):
     prop = ET.parse(project.path / "out.xml").find(".//property[@name='refines']")
     record = json.loads(prop.get("value"))
     assert record["verdict"] == "refuted" and record["exact_precondition"] == "x > 4"
+
+
+def test_spec_modules_named_on_the_command_line_keep_plain_asserts(pytester):
+    # pytest rewrites asserts of files named on the command line; a spec module
+    # is imported as Python would, so its AssertionError carries only its message.
+    pytester.makepyfile(gear='''
+from refines import refines
+
+@refines(lambda ropes, result: result == ropes)
+def inspected(ropes: int) -> int:
+    assert ropes >= 0, "negative rope count"
+    return ropes
+''')
+    result = pytester.runpytest("gear.py", "--refines-path", "gear.py", "-p", "no:cacheprovider")
+    result.stdout.fnmatch_lines(["*raised AssertionError: negative rope count"])
+    assert "assert -1 >= 0" not in result.stdout.str()
+
+
+def test_spec_above_another_decorator_reports_the_users_line(pytester):
+    pytester.makepyfile(cases='''
+import functools
+from refines import refines
+
+def logged(fn):
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        return fn(*args, **kwargs)
+    return wrapper
+
+@refines(lambda x, result: result == x)
+@logged
+def above(x: int) -> int:
+    return x
+''')
+    data = _report(pytester, "--refines-path", "cases.py")
+    (r,) = data["results"]
+    assert r["verdict"] == "unknown"
+    assert r["line"] == line_of(pytester, "cases.py", "@refines(")
+    assert r["function"] == "cases.above"

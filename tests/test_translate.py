@@ -832,3 +832,13 @@ def test_exception_messages_that_cannot_raise_are_accepted():
         assert y != 3, ("three", repr(y))
         return x
     ''', SMALL)
+
+
+def test_min_of_a_single_int_raises_typeerror_as_python_does():
+    t = check_agrees('''
+    def f(x: int) -> int:
+        if x > 3:
+            return max(x)
+        return min((x, 2))
+    ''', SMALL)
+    assert raised(t, grid(SMALL), TypeError)

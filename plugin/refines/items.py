@@ -7,8 +7,10 @@ it stays fast. Everything heavy happens in ``runtest``.
 
 from __future__ import annotations
 
+import contextlib
 import inspect
 import json
+import sys
 from pathlib import Path
 from typing import Callable, Iterator, List, Optional
 
@@ -47,6 +49,28 @@ def specced_functions(module) -> List[Callable]:
     return found
 
 
+@contextlib.contextmanager
+def _without_assert_rewriting():
+    """Import spec modules as Python does. pytest rewrites the asserts of test
+    modules, and of any file named on the command line; a spec module is
+    neither, and its asserts must behave as they do in production (the
+    translation models plain asserts)."""
+    try:
+        from _pytest.assertion.rewrite import AssertionRewritingHook
+    except ImportError:  # pragma: no cover -- a pytest without the hook
+        yield
+        return
+    hooks = [(i, h) for i, h in enumerate(sys.meta_path)
+             if isinstance(h, AssertionRewritingHook)]
+    for _, h in reversed(hooks):
+        sys.meta_path.remove(h)
+    try:
+        yield
+    finally:
+        for i, h in hooks:
+            sys.meta_path.insert(i, h)
+
+
 class RefinesFile(pytest.File):
     """A source file under the refines paths."""
 
@@ -54,10 +78,12 @@ class RefinesFile(pytest.File):
         from _pytest.pathlib import import_path
 
         try:
-            module = import_path(
-                self.path, mode=self.config.getoption("importmode"),
-                root=self.config.rootpath,
-                consider_namespace_packages=self.config.getini("consider_namespace_packages"))
+            with _without_assert_rewriting():
+                module = import_path(
+                    self.path, mode=self.config.getoption("importmode"),
+                    root=self.config.rootpath,
+                    consider_namespace_packages=self.config.getini(
+                        "consider_namespace_packages"))
         except Exception as exc:  # noqa: BLE001 -- report, do not crash the session
             raise self.CollectError(
                 f"refines: could not import {self.path} to read its specs:\n"

@@ -140,8 +140,8 @@ class Gatherer:
     """Gathers verdicts from reports and writes the summary and JSON report.
 
     Registered per session; under xdist the reports reach the controller with
-    their ``user_properties`` (plain JSON data), so the controller alone
-    writes one combined report.
+    their ``user_properties`` (each record as JSON text), so the controller
+    alone writes one combined report.
     """
 
     def __init__(self, config: pytest.Config) -> None:

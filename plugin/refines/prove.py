@@ -12,6 +12,7 @@ on what else ran in the process (or on xdist's scheduling).
 
 from __future__ import annotations
 
+import inspect
 import time
 import traceback
 from typing import Any, Callable
@@ -215,8 +216,9 @@ def check_function(fn, index: int, path: str, module: str, timeout: float,
     from refines.source import read_obligation
 
     start = time.perf_counter()
-    base = Result(verdict=ERROR, function=f"{module}.{fn.__qualname__}", path=show(path),
-                  line=fn.__code__.co_firstlineno)
+    written = inspect.unwrap(fn)  # the function as written, under any wrapper
+    base = Result(verdict=ERROR, function=f"{module}.{written.__qualname__}", path=show(path),
+                  line=written.__code__.co_firstlineno)
     try:
         ob = read_obligation(fn, index, path, module, show)
     except Untranslatable as exc:

@@ -633,6 +633,11 @@ class Translator:
                 return ir.const(0)
             if len(args) == 1 and isinstance(args[0], ir.Term):
                 return args[0]
+        elif len(args) == 1 and isinstance(args[0], ir.Term):
+            # max(5): an int is not iterable
+            self.raise_when(ir.TRUE, TypeError, node.lineno,
+                            f"{name}() of a single int: an int is not iterable")
+            return ir.const(0)
         if len(args) < 2 or not all(isinstance(a, ir.Term) for a in args):
             return None
         # CPython keeps the first extreme item: replace only on strict improvement.
