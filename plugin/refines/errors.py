@@ -40,17 +40,19 @@ MESSAGES: Dict[str, Message] = {
     ),
     "expression": Message(
         "`{construct}` expressions are not translated yet",
-        "supported: int and bool arithmetic (+ - * // % ** with a constant "
-        "exponent), comparisons, and/or/not, conditional expressions, tuples, "
-        "abs/min/max",
+        "supported: int, bool and float arithmetic (+ - * / // %, ** on ints with "
+        "a constant exponent), comparisons, and/or/not, conditional expressions, "
+        "tuples, abs/min/max/int/bool/float and math.isnan/isinf/isfinite/fabs/"
+        "sqrt/floor/ceil/copysign",
         "@refines(lambda x, result: result >= 0)\n"
         "def f(x: int) -> int:\n    return x.real\n",
         "unsupported",
     ),
     "call": Message(
         "calls to `{callee}` are not translated yet",
-        "only abs, min, max, int and bool are modelled; calls to other functions "
-        "arrive with a later release",
+        "the builtins abs, min, max, int, bool, float and the math functions "
+        "isnan, isinf, isfinite, fabs, sqrt, floor, ceil, copysign are modelled; "
+        "calls to other functions arrive with a later release",
         "def helper(x):\n    return x\n\n"
         "@refines(lambda x, result: result == x)\n"
         "def f(x: int) -> int:\n    return helper(x)\n",
@@ -73,21 +75,22 @@ MESSAGES: Dict[str, Message] = {
     ),
     "value": Message(
         "the value `{construct}` of type {type} is not modelled yet",
-        "this release models int, bool, tuples of them and None",
-        "@refines(lambda x, result: result > 0)\n"
-        "def f(x: int) -> float:\n    return x + 0.5\n",
+        "this release models int, bool, float, tuples of them and None",
+        "@refines(lambda x, result: result == x)\n"
+        "def f(x: int) -> str:\n    return 'crimp'\n",
         "unsupported",
     ),
     "param-type": Message(
         "parameter `{name}` has the type hint `{hint_text}`, which is not modelled yet",
-        "this release proves functions whose parameters are annotated `int` or `bool`",
+        "this release proves functions whose parameters are annotated `int`, "
+        "`bool` or `float`",
         "@refines(lambda s, result: result == s)\n"
         "def f(s: str) -> str:\n    return s\n",
         "unsupported",
     ),
     "param-untyped": Message(
         "parameter `{name}` has no type hint; the hint says which values to prove for",
-        "annotate it `int` or `bool`",
+        "annotate it `int`, `bool` or `float`",
         "@refines(lambda s, result: result == s)\n"
         "def f(s):\n    return s\n",
         "unsupported",

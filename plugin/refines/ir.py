@@ -23,6 +23,7 @@ from typing import Optional, Tuple, Union
 
 INT = "int"
 BOOL = "bool"
+FLOAT = "float"  # IEEE 754 binary64, as CPython computes it
 
 ARITH_OPS = ("+", "-", "*", "//", "%")
 CMP_OPS = ("<", "<=", ">", ">=", "==", "!=")
@@ -31,7 +32,10 @@ NEGATED = {"<": ">=", "<=": ">", ">": "<=", ">=": "<", "==": "!=", "!=": "=="}
 
 # Binding strength, for printing with the fewest parentheses Python needs.
 _PREC = {"ite": 0, "or": 1, "and": 2, "not": 3, "cmp": 4, "+": 5, "-": 5,
-         "*": 6, "//": 6, "%": 6, "neg": 7, "atom": 9}
+         "*": 6, "/": 6, "//": 6, "%": 6, "neg": 7, "atom": 9}
+# Ops printed as an infix expression rather than a call: their strength.
+_OP_PREC = {"int_truediv": 6, "float_overflows": 4,
+            "int_truediv_overflows": 4}
 
 
 class Term:
@@ -115,13 +119,54 @@ class Ite(Term):
         return self.then.sort
 
 
+@dataclass(frozen=True, repr=False, eq=False)
+class Op(Term):
+    """A named operation with Python's meaning, e.g. ``Op("isnan", (x,), BOOL)``.
+
+    ``lower.OPS`` says how each name is lowered and ``OP_TEMPLATES`` how it
+    prints; the names are the operations Python defines on floats (and the
+    conditions under which they raise) that the plain nodes do not cover.
+    """
+
+    name: str
+    args: Tuple[Term, ...]
+    sort: str
+
+
+# How each Op prints as Python; ``2 ** 1024 - 2 ** 970`` is the least integer
+# magnitude that float() rounds beyond the largest float (OverflowError).
+OP_TEMPLATES = {
+    "float": "float({0})",
+    "float_overflows": "abs({0}) >= 2 ** 1024 - 2 ** 970",
+    "int_truediv": "{0} / {1}",
+    "int_truediv_overflows": "abs({0}) >= (2 ** 1024 - 2 ** 970) * abs({1})",
+    "fabs": "abs({0})",
+    "min": "min({0}, {1})",
+    "max": "max({0}, {1})",
+    "sqrt": "math.sqrt({0})",
+    "copysign": "math.copysign({0}, {1})",
+    "isnan": "math.isnan({0})",
+    "isinf": "math.isinf({0})",
+    "isfinite": "math.isfinite({0})",
+    "trunc": "int({0})",
+    "floor": "math.floor({0})",
+    "ceil": "math.ceil({0})",
+}
+
+
+def op(name: str, *args: Term, sort: str) -> Term:
+    return Op(name, tuple(args), sort)
+
+
 TRUE = Const(True, BOOL)
 FALSE = Const(False, BOOL)
 
 
-def const(value: Union[int, bool]) -> Const:
+def const(value: Union[int, bool, float]) -> Const:
     if isinstance(value, bool):
         return TRUE if value else FALSE
+    if isinstance(value, float):
+        return Const(value, FLOAT)
     return Const(value, INT)
 
 
@@ -202,6 +247,8 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
     if is_false(cond):
         return orelse
     if then.sort != orelse.sort:
+        if FLOAT in (then.sort, orelse.sort):
+            raise TypeError("an int and a float do not merge into one term")
         then, orelse = as_int(then), as_int(orelse)
     if then.sort == BOOL:
         if is_true(then) and is_false(orelse):
@@ -212,6 +259,18 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
 
 
 def arith(op: str, left: Term, right: Term) -> Term:
+    if left.sort == FLOAT or right.sort == FLOAT:
+        # IEEE arithmetic: no algebraic folding (x + 0.0 is not x for x = -0.0).
+        if left.sort != FLOAT or right.sort != FLOAT:
+            raise TypeError("float arithmetic needs two float operands")
+        if isinstance(left, Const) and isinstance(right, Const) and (
+                op in ("+", "-", "*") or right.value != 0):
+            # CPython computes these exactly as the model does (IEEE 754 RNE).
+            a, b = left.value, right.value
+            return Const({"+": lambda: a + b, "-": lambda: a - b, "*": lambda: a * b,
+                          "/": lambda: a / b, "//": lambda: a // b,
+                          "%": lambda: a % b}[op](), FLOAT)
+        return Arith(op, left, right, FLOAT)
     left, right = as_int(left), as_int(right)
     if isinstance(left, Const) and isinstance(right, Const):
         a, b = left.value, right.value
@@ -237,6 +296,8 @@ def arith(op: str, left: Term, right: Term) -> Term:
 
 
 def neg(a: Term) -> Term:
+    if a.sort == FLOAT:
+        return a.arg if isinstance(a, Neg) else Neg(a, FLOAT)
     a = as_int(a)
     if isinstance(a, Const):
         return const(-a.value)
@@ -246,7 +307,12 @@ def neg(a: Term) -> Term:
 
 
 def cmp(op: str, left: Term, right: Term) -> Term:
-    if left.sort != right.sort or op not in ("==", "!="):
+    if FLOAT in (left.sort, right.sort):
+        # Floats compare with ints exactly (not by converting the int), and a
+        # bool is the int 0 or 1; NaN makes every comparison but != false.
+        left = left if left.sort == FLOAT else as_int(left)
+        right = right if right.sort == FLOAT else as_int(right)
+    elif left.sort != right.sort or op not in ("==", "!="):
         left, right = as_int(left), as_int(right)
     if isinstance(left, Const) and isinstance(right, Const):
         a, b = left.value, right.value
@@ -372,6 +438,8 @@ def children(t: Term) -> tuple:
         return t.args
     if isinstance(t, Ite):
         return (t.cond, t.then, t.orelse)
+    if isinstance(t, Op):
+        return t.args
     return ()
 
 
@@ -389,13 +457,32 @@ def _render_prec(t: Term, memo: dict):
     return out
 
 
+def _float_text(value: float):
+    """A float literal that Python reads back as exactly this float."""
+    if value != value:
+        return "float('nan')", _PREC["atom"]
+    if value in (float("inf"), float("-inf")):
+        return ("float('inf')", _PREC["atom"]) if value > 0 else ("-float('inf')", _PREC["neg"])
+    text = repr(value)  # shortest repr round-trips exactly (Python 3.1+)
+    return text, _PREC["neg"] if text.startswith("-") else _PREC["atom"]
+
+
 def _render_node(t: Term, memo: dict):
     if isinstance(t, Var):
         return t.name, _PREC["atom"]
     if isinstance(t, Const):
+        if t.sort == FLOAT:
+            return _float_text(t.value)
         if t.sort == INT and t.value < 0:
             return repr(t.value), _PREC["neg"]
         return repr(t.value), _PREC["atom"]
+    if isinstance(t, Op):
+        p = _OP_PREC.get(t.name, _PREC["atom"])
+        if p == _PREC["atom"]:
+            args = [_render(a, 0, memo) for a in t.args]
+        else:  # infix: left-associative, like Arith
+            args = [_render(a, p + (i > 0), memo) for i, a in enumerate(t.args)]
+        return OP_TEMPLATES[t.name].format(*args), p
     if isinstance(t, Arith):
         p = _PREC[t.op]
         # Left-associative: the right operand needs parentheses at equal strength.

@@ -11,7 +11,28 @@ from typing import Dict
 
 import z3
 
-from refines import ir
+from refines import fpmath, ir
+
+# How each ir.Op lowers: a function of the context and the lowered arguments.
+OPS = {
+    "float": lambda ctx, a: fpmath.from_int(a, ctx)[0],
+    "float_overflows": lambda ctx, a: fpmath.from_int(a, ctx)[1],
+    "int_truediv": lambda ctx, p, q: fpmath.int_true_div(p, q, ctx)[0],
+    "int_truediv_overflows": lambda ctx, p, q: fpmath.int_true_div(p, q, ctx)[1],
+    "fabs": lambda ctx, a: fpmath.fabs(a, ctx),
+    "min": lambda ctx, a, b: fpmath.py_min(a, b, ctx),
+    "max": lambda ctx, a, b: fpmath.py_max(a, b, ctx),
+    "sqrt": lambda ctx, a: fpmath.sqrt(a, ctx)[0],
+    "copysign": lambda ctx, a, b: fpmath.copysign(a, b, ctx),
+    "isnan": lambda ctx, a: fpmath.isnan(a, ctx),
+    "isinf": lambda ctx, a: fpmath.isinf(a, ctx),
+    "isfinite": lambda ctx, a: fpmath.isfinite(a, ctx),
+    "trunc": lambda ctx, a: fpmath.trunc_to_int(a, ctx)[0],
+    "floor": lambda ctx, a: fpmath.floor_to_int(a, ctx)[0],
+    "ceil": lambda ctx, a: fpmath.ceil_to_int(a, ctx)[0],
+}
+_FLOAT_ARITH = {"+": fpmath.add, "-": fpmath.sub, "*": fpmath.mul, "/": fpmath.div,
+                "//": fpmath.floordiv, "%": fpmath.mod}
 
 
 class Lowering:
@@ -26,8 +47,12 @@ class Lowering:
     def var(self, name: str, sort: str) -> z3.ExprRef:
         key = f"{name}:{sort}"
         if key not in self.vars:
-            self.vars[key] = (z3.Int(name, self.ctx) if sort == ir.INT
-                              else z3.Bool(name, self.ctx))
+            if sort == ir.INT:
+                self.vars[key] = z3.Int(name, self.ctx)
+            elif sort == ir.FLOAT:
+                self.vars[key] = z3.FP(name, fpmath.sort(self.ctx))
+            else:
+                self.vars[key] = z3.Bool(name, self.ctx)
         return self.vars[key]
 
     def __call__(self, t: ir.Term) -> z3.ExprRef:
@@ -55,7 +80,22 @@ class Lowering:
         if isinstance(t, ir.Const):
             if t.sort == ir.BOOL:
                 return z3.BoolVal(bool(t.value), ctx)
+            if t.sort == ir.FLOAT:
+                return fpmath.const(float(t.value), ctx)
             return z3.IntVal(int(t.value), ctx)
+        if isinstance(t, ir.Op):
+            return OPS[t.name](ctx, *[m[id(a)] for a in t.args])
+        if isinstance(t, ir.Arith) and t.sort == ir.FLOAT:
+            return _FLOAT_ARITH[t.op](m[id(t.left)], m[id(t.right)], ctx)
+        if isinstance(t, ir.Neg) and t.sort == ir.FLOAT:
+            return fpmath.neg(m[id(t.arg)], ctx)
+        if isinstance(t, ir.Cmp) and ir.FLOAT in (t.left.sort, t.right.sort):
+            a, b = m[id(t.left)], m[id(t.right)]
+            if t.left.sort == ir.FLOAT and t.right.sort == ir.FLOAT:
+                return fpmath.compare(t.op, a, b)
+            if t.left.sort == ir.FLOAT:  # float <op> int is int <flipped op> float
+                return fpmath.compare_int_float(ir.FLIPPED[t.op], b, a, ctx)
+            return fpmath.compare_int_float(t.op, a, b, ctx)
         if isinstance(t, ir.Arith):
             a, b = m[id(t.left)], m[id(t.right)]
             if t.op == "+":

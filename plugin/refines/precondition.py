@@ -21,6 +21,7 @@ wrong suggestion is never shown.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from math import gcd
 from typing import Dict, List, Optional, Sequence, Tuple
@@ -100,6 +101,14 @@ def readable(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
     if cubes is not None:
         cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
         cubes = simplify_cubes(cubes, target, context, solver)
+        # Only worth its queries where the cubes reason through //, %,
+        # products or floats: linear integer bounds already read well.
+        if (len(cubes) > 1 or (cubes and len(cubes[0]) > 1)) and any(
+                _nonlinear(lit) for c in cubes for lit in c):
+            single = _simpler_literal([ir.or_(*(ir.and_(*c) for c in cubes))], context,
+                                      params, target, solver, force=True)
+            if len(single) == 1 and single[0] is not None and not isinstance(single[0], ir.Or):
+                cubes = [single]
         cubes = [_simpler_literal(c, context, params, target, solver) for c in cubes]
         text = print_cubes(cubes)
         if _equivalent(text, target, context, params, solver):
@@ -118,7 +127,8 @@ def _equivalent(text: str, target: ir.Term, context: ir.Term,
     try:
         node = parse_expression(text)
         env = {p.name: p for p in params}
-        value = translate_spec(node, env, Scope({}, [p.name for p in params]), "check")
+        value = translate_spec(node, env, Scope({"math": math}, [p.name for p in params]),
+                               "check")
     except (SyntaxError, SpecError, Untranslatable, Exception):  # noqa: BLE001
         return False
     # It must not raise where it matters, and must agree everywhere it matters.
@@ -150,13 +160,15 @@ def dnf(t: ir.Term, negate: bool) -> Optional[List[Cube]]:
         left = _product([dnf(t.cond, False), dnf(t.then, negate)])
         right = _product([dnf(t.cond, True), dnf(t.orelse, negate)])
         return _concat([left, right])
-    if isinstance(t, ir.Var):
+    if isinstance(t, (ir.Var, ir.Op)) and t.sort == ir.BOOL:
         return [[ir.not_(t) if negate else t]]
     if isinstance(t, ir.Cmp):
         if t.left.sort == ir.BOOL and t.right.sort == ir.BOOL:
             same = ir.or_(ir.and_(t.left, t.right),
                           ir.and_(ir.not_(t.left), ir.not_(t.right)))
             return dnf(same, negate != (t.op == "!="))
+        if negate and ir.FLOAT in (t.left.sort, t.right.sort) and t.op not in ("==", "!="):
+            return [[ir.Not(t)]]  # with NaN, not (x < y) is not x >= y
         op = ir.NEGATED[t.op] if negate else t.op
         out: List[Cube] = []
         lcases, rcases = cases(t.left), cases(t.right)
@@ -196,6 +208,14 @@ def cases(t: ir.Term) -> Optional[List[Tuple[Cube, ir.Term]]]:
         if left is None or right is None or len(left) * len(right) > MAX_CUBES:
             return None
         return [(lc + rc, ir.arith(t.op, lt, rt)) for lc, lt in left for rc, rt in right]
+    if isinstance(t, ir.Op):
+        combos: List[Tuple[Cube, list]] = [([], [])]
+        for a in t.args:
+            sub = cases(a)
+            if sub is None or len(combos) * len(sub) > MAX_CUBES:
+                return None
+            combos = [(c + sc, args + [st]) for c, args in combos for sc, st in sub]
+        return [(c, ir.Op(t.name, tuple(args), t.sort)) for c, args in combos]
     return None
 
 
@@ -281,8 +301,8 @@ def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
 
 def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
     """A comparison as ``<linear form> <op> <constant>``, constants folded."""
-    if not isinstance(lit, ir.Cmp) or lit.left.sort != ir.INT:
-        return lit
+    if not isinstance(lit, ir.Cmp) or lit.left.sort != ir.INT or lit.right.sort != ir.INT:
+        return lit  # only integer comparisons are rearranged: float ones round
     atoms: Dict[str, ir.Term] = {}
     c1, k1 = linear(lit.left, atoms)
     c2, k2 = linear(lit.right, atoms)
@@ -406,30 +426,46 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
 
 
 def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],
-                     target: ir.Term, solver) -> Cube:
-    """Replace a cube that reasons through ``//``, ``%`` or products by one
-    comparison of a parameter with a constant, when the solver shows the two
-    agree under ``context`` (``0 <= x % y < y`` is ``y > 0``)."""
-    if len(cube) < 2 or not any(_nonlinear(lit) for lit in cube):
+                     target: ir.Term, solver, force: bool = False) -> Cube:
+    """Replace a cube (or with ``force``, a whole condition) that reasons
+    through ``//``, ``%``, products or floats by one simple condition on one
+    parameter -- a comparison with a constant, or for a float ``not
+    math.isnan(x)`` and the like -- when the solver shows the two agree under
+    ``context`` (``0 <= x % y < y`` is ``y > 0``)."""
+    if not force and (len(cube) < 2 or not any(_nonlinear(lit) for lit in cube)):
         return cube
-    constants = sorted({0, 1, -1} | _constants(target), key=lambda c: (abs(c), c))[:6]
     whole = ir.and_(*cube)
-    for p in params:
-        if p.sort != ir.INT:
-            continue
-        for c in constants:
-            for op in (">", ">=", "<", "<=", "==", "!="):
-                candidate = ir.Cmp(op, p, ir.const(c))
-                status, _, _ = solver.check(context, ir.not_(ir.cmp("==", whole, candidate)))
-                if status == z3.unsat:
-                    return [candidate]
+    for candidate in _candidates(params, target):
+        status, _, _ = solver.check(context, ir.not_(ir.cmp("==", whole, candidate)))
+        if status == z3.unsat:
+            return [candidate]
     return cube
+
+
+def _candidates(params: Sequence[ir.Var], target: ir.Term):
+    ints = sorted({c for c in _constants(target) if isinstance(c, int)} | {0, 1, -1},
+                  key=lambda c: (abs(c), c))[:6]
+    for p in params:
+        if p.sort == ir.INT:
+            for c in ints:
+                for op in (">", ">=", "<", "<=", "==", "!="):
+                    yield ir.Cmp(op, p, ir.const(c))
+        elif p.sort == ir.FLOAT:
+            for name in ("isnan", "isfinite", "isinf"):
+                test = ir.op(name, p, sort=ir.BOOL)
+                yield ir.Not(test)
+                yield test
+        elif p.sort == ir.BOOL:
+            yield p
+            yield ir.Not(p)
 
 
 def _nonlinear(t: ir.Term) -> bool:
     stack = [t]
     while stack:
         n = stack.pop()
+        if n.sort == ir.FLOAT or isinstance(n, ir.Op):
+            return True
         if isinstance(n, ir.Arith) and (n.op in ("//", "%") or (
                 n.op == "*" and not isinstance(n.left, ir.Const)
                 and not isinstance(n.right, ir.Const))):
@@ -445,7 +481,7 @@ def _constants(t: ir.Term) -> set:
         if id(n) in seen:
             continue
         seen.add(id(n))
-        if isinstance(n, ir.Const) and n.sort == ir.INT:
+        if isinstance(n, ir.Const) and n.sort == ir.INT and abs(n.value) < 10 ** 6:
             out.add(int(n.value))
         stack.extend(ir.children(n))
     return out

@@ -13,13 +13,14 @@ on what else ran in the process (or on xdist's scheduling).
 from __future__ import annotations
 
 import inspect
+import math
 import time
 import traceback
 from typing import Any, Callable
 
 import z3
 
-from refines import ir, precondition, replay
+from refines import fpmath, ir, precondition, replay
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering
 from refines.obligation import Spec, translate_spec_for, violations
@@ -82,6 +83,8 @@ class Solver:
             return tuple(self.value(model, i) for i in v.items)
         if v is ir.NONE:
             return None
+        if v.sort == ir.FLOAT:
+            return fpmath.read(model, self.lower(v))
         z = model.eval(self.lower(v), model_completion=True)
         if v.sort == ir.BOOL:
             return z3.is_true(z)
@@ -176,6 +179,10 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     result.exact_precondition = pre.exact
     result.suggested_assuming = pre.suggested
     result.precondition_note = pre.note
+    if pre.suggested and "math." in pre.suggested and \
+            ob.fn.__globals__.get("math") is not math:
+        result.notes.append(f"the suggestion uses the math module: add `import math` "
+                            f"to {ob.show(ob.path)} before pasting it")
     return result
 
 

@@ -7,6 +7,7 @@ is an independent check of what the translator predicted.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any, Dict, List, Optional, Tuple
 
@@ -55,9 +56,22 @@ def call_args(ob: Obligation, inputs: Dict[str, Any]) -> Tuple[list, dict]:
     return args, kwargs
 
 
+def literal(value: Any) -> str:
+    """Python source for ``value``: repr, except for the floats whose repr is
+    not valid Python (nan, inf)."""
+    if isinstance(value, float) and (value != value or value in (math.inf, -math.inf)):
+        return "float('nan')" if value != value else (
+            "float('inf')" if value > 0 else "-float('inf')")
+    if isinstance(value, tuple):
+        inner = ", ".join(literal(v) for v in value)
+        return f"({inner},)" if len(value) == 1 else f"({inner})"
+    return repr(value)
+
+
 def call_text(ob: Obligation, inputs: Dict[str, Any]) -> str:
     """The call as a user would paste it."""
-    parts = [repr(inputs[p.name]) if kind == "positional-only" else f"{p.name}={inputs[p.name]!r}"
+    parts = [literal(inputs[p.name]) if kind == "positional-only"
+             else f"{p.name}={literal(inputs[p.name])}"
              for p, kind in zip(ob.params, ob.kinds)]
     return f"{ob.fn.__name__}({', '.join(parts)})"
 

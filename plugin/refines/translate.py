@@ -26,6 +26,7 @@ the only road to an ``unknown`` verdict.
 from __future__ import annotations
 
 import builtins
+import math
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Sequence, Tuple
 
@@ -79,7 +80,7 @@ def shape(v: ir.Value) -> str:
         return "tuple(" + ", ".join(shape(i) for i in v.items) + ")"
     if v is ir.NONE:
         return "None"
-    return "int/bool"
+    return "float" if v.sort == ir.FLOAT else "int/bool"
 
 
 def merge(cond: ir.Term, a, b):
@@ -101,6 +102,8 @@ def merge(cond: ir.Term, a, b):
             return MaybeUnbound(av, bound)
         return MaybeUnbound(merge(cond, av, bv), bound)
     if isinstance(a, ir.Term) and isinstance(b, ir.Term):
+        if (a.sort == ir.FLOAT) != (b.sort == ir.FLOAT):
+            return Conflict(f"{shape(a)} and {shape(b)}")  # int or float: not modelled
         return ir.ite(cond, a, b)
     if isinstance(a, ir.Tup) and isinstance(b, ir.Tup) and len(a.items) == len(b.items):
         items = tuple(merge(cond, x, y) for x, y in zip(a.items, b.items))
@@ -120,6 +123,8 @@ def truthy(v: ir.Value) -> ir.Term:
         return ir.FALSE
     if v.sort == ir.BOOL:
         return v
+    if v.sort == ir.FLOAT:
+        return ir.cmp("!=", v, ir.const(0.0))  # false only for ±0.0; NaN is true
     return ir.cmp("!=", v, ir.const(0))
 
 
@@ -130,6 +135,9 @@ class Scope:
         self.globals = globals_
         # Names assigned anywhere in the function are local throughout it.
         self.function_locals = set(locals_)
+        # One term per global name: every read of a module constant is the same
+        # object, which matters for identity (a NaN constant `in` a tuple).
+        self._constants: dict = {}
 
     def global_value(self, name: str, line: int):
         if name in self.globals:
@@ -138,12 +146,30 @@ class Scope:
             value = getattr(builtins, name)
         else:
             raise Untranslatable("name", line, {"name": name})
-        # Python's bool is an int subclass; both are modelled exactly.
-        if isinstance(value, (bool, int)):
-            return ir.const(value)
+        # Python's bool is an int subclass; both are modelled exactly, as are floats.
+        if isinstance(value, (bool, int, float)):
+            if name not in self._constants:
+                self._constants[name] = (ir.const(value) if not isinstance(value, float)
+                                         else ir.Const(value, ir.FLOAT))
+            return self._constants[name]
         if value is None:
             return ir.NONE
         raise Untranslatable("name", line, {"name": name})
+
+    def resolve(self, func: nodes.NodeNG):
+        """The object a callee names (``abs``, ``math.sqrt``, ``isnan`` imported
+        from math), looked up as Python would; None if it is not a global."""
+        dotted = []
+        cur = func
+        while isinstance(cur, nodes.Attribute):
+            dotted.append(cur.attrname)
+            cur = cur.expr
+        if not isinstance(cur, nodes.Name) or cur.name in self.function_locals:
+            return None
+        obj = self.globals.get(cur.name, getattr(builtins, cur.name, None))
+        for attr in reversed(dotted):
+            obj = getattr(obj, attr, None)
+        return obj
 
     def is_old(self, func: nodes.NodeNG) -> bool:
         """Whether ``func`` names ``refines.old`` (by name or as ``refines.old``)."""
@@ -345,7 +371,7 @@ class Translator:
     def expr_Const(self, node: nodes.Const) -> ir.Value:
         if node.value is None:
             return ir.NONE
-        if isinstance(node.value, (bool, int)):
+        if isinstance(node.value, (bool, int, float)):
             return ir.const(node.value)
         return self.refuse("value", node.lineno,
                              {"construct": node.as_string(),
@@ -384,7 +410,10 @@ class Translator:
         if node.op == "-":
             return ir.neg(operand)
         if node.op == "+":
-            return ir.as_int(operand)
+            return operand if operand.sort == ir.FLOAT else ir.as_int(operand)
+        if node.op == "~" and operand.sort == ir.FLOAT:
+            self.raise_when(ir.TRUE, TypeError, node.lineno, "bad operand type for unary ~")
+            return ir.const(0)
         if node.op == "~":  # ~x == -x - 1 for Python's unbounded ints
             return ir.arith("-", ir.neg(operand), ir.const(1))
         return self.refuse("operator", node.lineno,
@@ -401,6 +430,10 @@ class Translator:
             return self.tuple_binop(op, left, right, node)
         left = self.scalar(left, node, op)
         right = self.scalar(right, node, op)
+        if ir.FLOAT in (left.sort, right.sort):
+            return self.float_binop(op, left, right, node)
+        if op == "/":
+            return self.int_truediv(left, right, node)
         if op in ("+", "-", "*"):
             return ir.arith(op, left, right)
         if op in ("//", "%"):
@@ -416,17 +449,66 @@ class Translator:
             if op == "|":
                 return ir.or_(left, right)
             return ir.cmp("!=", left, right)
-        if op == "/":
-            return self.refuse("operator", node.lineno, {
-                "op": "/", "types": "int operands",
-                "hint": "true division returns a float, which is not modelled yet; "
-                        "use // for floor division"})
         return self.refuse("operator", node.lineno, {
             "op": op, "types": "int operands",
             "hint": "bitwise and shift operators on ints are not modelled yet"})
 
+    def to_float(self, v: ir.Term, line: int) -> ir.Term:
+        """An int operand of a float operation: Python converts it with one
+        rounding, and raises OverflowError past the largest float."""
+        if v.sort == ir.FLOAT:
+            return v
+        if isinstance(v, ir.Const):
+            try:
+                return ir.const(float(int(v.value)))
+            except OverflowError:
+                self.raise_when(ir.TRUE, OverflowError, line, "int too large to convert to float")
+                return ir.const(0.0)
+        n = ir.as_int(v)
+        self.raise_when(ir.op("float_overflows", n, sort=ir.BOOL), OverflowError, line,
+                        "int too large to convert to float")
+        return ir.op("float", n, sort=ir.FLOAT)
+
+    def float_binop(self, op: str, left: ir.Term, right: ir.Term, node) -> ir.Term:
+        if op == "**" and isinstance(left, ir.Const) and isinstance(right, ir.Const):
+            # Constant powers are computed by CPython itself, errors included.
+            try:
+                value = float(left.value) ** float(right.value) if left.sort == ir.FLOAT \
+                    else left.value ** right.value
+            except (OverflowError, ZeroDivisionError) as exc:
+                self.raise_when(ir.TRUE, type(exc), node.lineno, str(exc))
+                return ir.const(0.0)
+            if isinstance(value, complex):
+                return self.refuse("value", node.lineno,
+                                   {"construct": node.as_string(), "type": "complex"})
+            return ir.Const(float(value), ir.FLOAT)
+        if op not in ("+", "-", "*", "/", "//", "%"):
+            return self.refuse("operator", node.lineno, {
+                "op": op, "types": "float operands",
+                "hint": "floats support + - * / // % and comparisons"})
+        left = self.to_float(left, node.lineno)
+        right = self.to_float(right, node.lineno)
+        if op in ("/", "//", "%"):
+            # Python raises even for nan / 0.0, where IEEE 754 gives nan.
+            self.raise_when(ir.cmp("==", right, ir.const(0.0)), ZeroDivisionError,
+                            node.lineno, "float division by zero")
+        return ir.arith(op, left, right)
+
+    def int_truediv(self, left: ir.Term, right: ir.Term, node) -> ir.Term:
+        """int / int: one rounding of the exact quotient (not float(p) / float(q))."""
+        p, q = ir.as_int(left), ir.as_int(right)
+        self.raise_when(ir.cmp("==", q, ir.const(0)), ZeroDivisionError, node.lineno,
+                        "division by zero")
+        self.raise_when(ir.op("int_truediv_overflows", p, q, sort=ir.BOOL), OverflowError,
+                        node.lineno, "integer division result too large for a float")
+        return ir.op("int_truediv", p, q, sort=ir.FLOAT)
+
     def power(self, base: ir.Term, exponent: ir.Term, node: nodes.NodeNG) -> ir.Term:
-        if not (isinstance(exponent, ir.Const) and 0 <= exponent.value <= _MAX_POWER):
+        if (isinstance(base, ir.Const) and isinstance(exponent, ir.Const)
+                and base.sort != ir.FLOAT and 0 <= exponent.value <= 4096):
+            return ir.const(int(base.value) ** int(exponent.value))  # e.g. 2 ** 1024
+        if not (isinstance(exponent, ir.Const) and exponent.sort == ir.INT
+                and 0 <= exponent.value <= _MAX_POWER):
             return self.refuse("power", node.lineno, {"construct": node.as_string()})
         # Square-and-multiply keeps the term small and shares the squares.
         result: ir.Term = ir.const(1)
@@ -515,6 +597,9 @@ class Translator:
             if a is ir.NONE or b is ir.NONE:
                 same = ir.const(a is b)
                 return same if op == "is" else ir.not_(same)
+            same = self.identical_bools(a, b)
+            if same is not None:
+                return same if op == "is" else ir.not_(same)
             return self.refuse("operator", node.lineno, {
                 "op": op, "types": "ints",
                 "hint": "`is` between ints depends on object identity; use =="})
@@ -523,7 +608,7 @@ class Translator:
                 return self.refuse("operator", node.lineno, {
                     "op": op, "types": "this right-hand side",
                     "hint": "`in` is modelled for tuples"})
-            found = ir.or_(*(self.equal(a, item) for item in b.items))
+            found = ir.or_(*(self.equal(a, item, True) for item in b.items))
             return found if op == "in" else ir.not_(found)
         if op in ("==", "!="):
             same = self.equal(a, b)
@@ -532,13 +617,30 @@ class Translator:
             return self.lexicographic(op, list(a.items), list(b.items), node)
         return ir.cmp(op, self.scalar(a, node, op), self.scalar(b, node, op))
 
-    def equal(self, a: ir.Value, b: ir.Value) -> ir.Term:
+    @staticmethod
+    def identical_bools(a: ir.Value, b: ir.Value) -> Optional[ir.Term]:
+        """``a is True``/``a is False``: True and False are singletons, so for a
+        bool this is equality; a float or a tuple is never one of them. None
+        when it cannot be decided (an int-sorted term may hold a bool)."""
+        for x, y in ((a, b), (b, a)):
+            if isinstance(y, ir.Const) and y.sort == ir.BOOL:
+                if isinstance(x, ir.Tup) or (isinstance(x, ir.Term) and x.sort == ir.FLOAT):
+                    return ir.FALSE
+                if isinstance(x, ir.Term) and x.sort == ir.BOOL:
+                    return ir.cmp("==", x, y)
+        return None
+
+    def equal(self, a: ir.Value, b: ir.Value, item: bool = False) -> ir.Term:
+        """``a == b``; ``item`` for the items of tuples and ``in``, which Python
+        compares by identity first (a NaN object equals itself there)."""
         if isinstance(a, ir.Term) and isinstance(b, ir.Term):
+            if item and ir.FLOAT in (a.sort, b.sort):
+                return ir.or_(same_object(a, b), ir.cmp("==", a, b))
             return ir.cmp("==", a, b)
         if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
             if len(a.items) != len(b.items):
                 return ir.FALSE
-            return ir.and_(*(self.equal(x, y) for x, y in zip(a.items, b.items)))
+            return ir.and_(*(self.equal(x, y, True) for x, y in zip(a.items, b.items)))
         return ir.const(a is b)  # None == None; None is unequal to ints and tuples
 
     def lexicographic(self, op, a, b, node) -> ir.Term:
@@ -550,7 +652,7 @@ class Translator:
             la, lb = len(a), len(b)
             return ir.const({"<": la < lb, "<=": la <= lb, ">": la > lb,
                              ">=": la >= lb}[op])
-        same = self.equal(a[0], b[0])
+        same = self.equal(a[0], b[0], True)
         rest, first = self.branches(same, lambda: self.lexicographic(op, a[1:], b[1:], node),
                                     lambda: self.compare(op, a[0], b[0], node))
         return ir.ite(same, rest, first)
@@ -596,7 +698,6 @@ class Translator:
 
     def expr_Call(self, node: nodes.Call) -> ir.Value:
         func = node.func
-        name = func.name if isinstance(func, nodes.Name) else None
         if self.scope.is_old(func):
             if self.old_env is None or len(node.args) != 1 or node.keywords:
                 raise SpecError("spec-old", node.lineno)
@@ -608,18 +709,22 @@ class Translator:
             return value
         if node.keywords or any(isinstance(a, nodes.Starred) for a in node.args):
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
-        for builtin_name, handler in (("abs", self.call_abs), ("min", self.call_minmax),
-                                      ("max", self.call_minmax), ("int", self.call_int),
-                                      ("bool", self.call_bool)):
-            if name == builtin_name and self.scope.is_builtin(name, getattr(builtins, name)):
-                args = [self.expr(a) for a in node.args]
-                result = handler(name, args, node)
-                if result is not None:
-                    return result
+        handler = _CALLS.get(id(self.scope.resolve(func)))
+        if handler is not None:
+            method, fn_name = handler
+            if (fn_name == "float" and len(node.args) == 1 and isinstance(node.args[0], nodes.Const)
+                    and isinstance(node.args[0].value, str)):
+                return self.float_of_text(node.args[0].value, node)
+            args = [self.expr(a) for a in node.args]
+            result = getattr(self, method)(fn_name, args, node)
+            if result is not None:
+                return result
         return self.refuse("call", node.lineno, {"callee": func.as_string()})
 
     def call_abs(self, name, args, node):
         if len(args) == 1 and isinstance(args[0], ir.Term):
+            if args[0].sort == ir.FLOAT:
+                return ir.op("fabs", args[0], sort=ir.FLOAT)  # abs(-0.0) is 0.0
             x = ir.as_int(args[0])
             return ir.ite(ir.cmp("<", x, ir.const(0)), ir.neg(x), x)
         return None
@@ -642,6 +747,9 @@ class Translator:
             return None
         # CPython keeps the first extreme item: replace only on strict improvement.
         op = "<" if name == "min" else ">"
+        if len({a.sort == ir.FLOAT for a in args}) > 1:
+            return self.refuse("mixed", node.lineno, {
+                "construct": node.as_string(), "shapes": "int and float"})
         best = args[0]
         for a in args[1:]:
             best = ir.ite(ir.cmp(op, a, best), a, best)
@@ -649,8 +757,56 @@ class Translator:
 
     def call_int(self, name, args, node):
         if len(args) == 1 and isinstance(args[0], ir.Term):
+            if args[0].sort == ir.FLOAT:
+                return self.float_to_int("trunc", args[0], node)
             return ir.as_int(args[0])
         return None
+
+    def float_to_int(self, how: str, x: ir.Term, node) -> ir.Term:
+        """int(x), math.floor(x), math.ceil(x) for a float: an int, or an error."""
+        self.raise_when(ir.op("isinf", x, sort=ir.BOOL), OverflowError, node.lineno,
+                        "cannot convert float infinity to integer")
+        self.raise_when(ir.op("isnan", x, sort=ir.BOOL), ValueError, node.lineno,
+                        "cannot convert float NaN to integer")
+        return ir.op(how, x, sort=ir.INT)
+
+    def call_float(self, name, args, node):
+        if not args:
+            return ir.const(0.0)
+        if len(args) != 1:
+            return None
+        if isinstance(args[0], ir.Term):
+            return self.to_float(args[0], node.lineno)
+        return None
+
+    def float_of_text(self, text: str, node) -> ir.Term:
+        """float("nan"), float("inf"), float("1e-3"): a constant, as Python parses it."""
+        try:
+            return ir.Const(float(text), ir.FLOAT)
+        except ValueError:
+            self.raise_when(ir.TRUE, ValueError, node.lineno,
+                            f"could not convert string to float: {text!r}")
+            return ir.const(0.0)
+
+    def call_math(self, name, args, node):
+        """The math functions modelled (``math`` module documentation)."""
+        if not all(isinstance(a, ir.Term) for a in args):
+            return None
+        arity = 2 if name == "copysign" else 1
+        if len(args) != arity:
+            return None
+        if name in ("floor", "ceil"):
+            x = args[0]
+            if x.sort != ir.FLOAT:
+                return ir.as_int(x)  # math.floor(7) is 7: ints are not converted
+            return self.float_to_int(name, x, node)
+        xs = [self.to_float(a, node.lineno) for a in args]  # ints are converted first
+        if name in ("isnan", "isinf", "isfinite"):
+            return ir.op(name, xs[0], sort=ir.BOOL)
+        if name == "sqrt":
+            self.raise_when(ir.cmp("<", xs[0], ir.const(0.0)), ValueError, node.lineno,
+                            "math domain error")
+        return ir.op(name, *xs, sort=ir.FLOAT)
 
     def call_bool(self, name, args, node):
         if len(args) == 1:
@@ -718,6 +874,29 @@ class Translator:
             return not isinstance(self.env[name], (MaybeUnbound, Conflict))
         return name not in self.scope.function_locals and (
             name in self.scope.globals or hasattr(builtins, name))
+
+
+def same_object(a: ir.Term, b: ir.Term) -> ir.Term:
+    """Whether ``a`` and ``b`` are one Python object. A value flows through
+    assignments and branches unchanged, while each arithmetic operation makes a
+    new object; distinct parameters are taken to be distinct objects."""
+    if a is b:
+        return ir.TRUE
+    if isinstance(a, ir.Ite):
+        return ir.ite(a.cond, same_object(a.then, b), same_object(a.orelse, b))
+    if isinstance(b, ir.Ite):
+        return ir.ite(b.cond, same_object(a, b.then), same_object(a, b.orelse))
+    return ir.FALSE
+
+
+# Callees modelled, by the identity of the object the name resolves to.
+_CALLS = {id(fn): (method, name) for fn, method, name in (
+    (abs, "call_abs", "abs"), (min, "call_minmax", "min"), (max, "call_minmax", "max"),
+    (int, "call_int", "int"), (bool, "call_bool", "bool"), (float, "call_float", "float"),
+    (math.isnan, "call_math", "isnan"), (math.isinf, "call_math", "isinf"),
+    (math.isfinite, "call_math", "isfinite"), (math.fabs, "call_math", "fabs"),
+    (math.sqrt, "call_math", "sqrt"), (math.floor, "call_math", "floor"),
+    (math.ceil, "call_math", "ceil"), (math.copysign, "call_math", "copysign"))}
 
 
 # ---------------------------------------------------------------- entry points
