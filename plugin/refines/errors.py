@@ -97,8 +97,8 @@ MESSAGES: Dict[str, Message] = {
     ),
     "name": Message(
         "the name `{name}` is not a parameter, a local assigned before this "
-        "line, or a module-level int/bool constant",
-        "module constants must be assigned once at module level to an int or bool",
+        "line, or a module-level int/bool/float constant",
+        "module constants must be assigned once at module level to an int, bool or float",
         "GREETING = 'welcome'\n\n@refines(lambda x, result: result == x)\n"
         "def f(x: int) -> int:\n    return GREETING\n",
         "unsupported",
