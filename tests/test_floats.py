@@ -151,3 +151,26 @@ def test_exact_precondition_over_floats_is_valid_python(tmp_path):
     for x in (4.0, 4.000000000000001, 3.9999999999999996, 1e300, -1.0, math.inf):
         assert eval(r.exact_precondition, {"math": math}, {"x": x}) == (x + 1.0 > 5.0)
     assert eval(r.exact_precondition, {"math": math}, {"x": math.nan}) is False
+
+
+def test_copysign_from_a_nan_is_not_proved(tmp_path):
+    # CPython reads the sign bit of a NaN (-float('nan') is negative); the
+    # solver's NaN has none, so a proof must not cover that case.
+    r = check_one(tmp_path, '''
+        import math
+
+        @refines(lambda x, s, result: result >= 0.0 or result < 0.0 or math.isnan(result))
+        def signed(x: float, s: float) -> float:
+            return math.copysign(x, s)
+        ''')
+    assert r.verdict == "unknown"
+    assert "NaN" in r.reason and "signed(" in r.reason
+    excluded = check_one(tmp_path, '''
+        import math
+
+        @refines(lambda x, s, result: abs(result) == abs(x) or math.isnan(x),
+                 assuming=lambda x, s: not math.isnan(s))
+        def signed(x: float, s: float) -> float:
+            return math.copysign(x, s)
+        ''')
+    assert excluded.verdict == PROVED

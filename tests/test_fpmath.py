@@ -14,8 +14,10 @@ Three kinds of check:
   not decide these claims in Float64 in minutes: ``fp.rem`` is too big when
   bit-blasted.) The exactness argument does not depend on the format.
 
-Each test builds its terms in its own ``z3.Context``. Terms are evaluated with
-``z3.simplify`` on constants; ``test_read_*`` also go through a model.
+Each test builds its terms in its own ``z3.Context``. Most build a term once on
+variables and substitute constants for them (``Z3.fn``), others build it on
+constants; either way ``z3.simplify`` evaluates it. ``test_read_*`` go through
+a model, and ``test_solver_*`` ask the solver about symbolic operands.
 """
 
 from __future__ import annotations
@@ -78,9 +80,9 @@ def random_floats(count: int, seed: int):
     return out
 
 
-def float_pairs(count: int, seed: int):
+def float_pairs(count: int, seed: int, specials=SPECIAL_FLOATS):
     """Every pair of special values, then seeded random pairs, some related."""
-    pairs = [(a, b) for a in SPECIAL_FLOATS for b in SPECIAL_FLOATS]
+    pairs = [(a, b) for a in specials for b in specials]
     rnd = random.Random(seed)
     pool = SPECIAL_FLOATS + random_floats(400, seed + 1)
     while len(pairs) < count:
@@ -125,6 +127,8 @@ class Z3:
 
     def __init__(self) -> None:
         self.ctx = z3.Context()
+        self.F64 = F.sort(self.ctx)
+        self.INT = z3.IntSort(self.ctx)
 
     def c(self, value: float, fmt=None) -> z3.FPRef:
         if fmt is None:
@@ -132,15 +136,41 @@ class Z3:
         s = z3.FPSort(fmt.eb, fmt.sb, self.ctx)
         return z3.fpNaN(s) if math.isnan(value) else z3.FPVal(value, None, s, self.ctx)
 
+    def sort(self, fmt) -> z3.FPSortRef:
+        return z3.FPSort(fmt.eb, fmt.sb, self.ctx)
+
+    def fn(self, build, *sorts, fmt=None):
+        """``build`` applied once to fresh variables of ``sorts``; the callable
+        returned puts constants in for them. The symbolic term is what a solver
+        gets, and building it once is several times faster than once per pair.
+        A tuple of terms (value, raising conditions) comes back as a tuple."""
+        vs = [z3.Const(f"arg{i}", s) for i, s in enumerate(sorts)]
+        built = build(*vs)
+
+        def at(*values):
+            subst = [(v, z3.IntVal(x, self.ctx) if z3.is_int(v) else self.c(x, fmt))
+                     for v, x in zip(vs, values)]
+            if isinstance(built, tuple):
+                return tuple(z3.substitute(t, *subst) for t in built)
+            return z3.substitute(built, *subst)
+        return at
+
     def float(self, term: z3.FPRef) -> float:
+        """The value of a constant term, decoded from its IEEE fields (any format;
+        independent of ``fpmath.read``, which goes through ``fp.to_ieee_bv``)."""
         v = z3.simplify(term)
         assert isinstance(v, z3.FPNumRef), f"not evaluated to a constant: {v}"
         if v.isNaN():
             return NAN
-        ctx = self.ctx
-        # widen small formats to Float64 (exact) before reading the bits
-        wide = z3.simplify(z3.fpFPToFP(z3.RNE(ctx), v, z3.Float64(ctx), ctx))
-        return bits_to_float(z3.simplify(z3.fpToIEEEBV(wide, ctx)).as_long())
+        sign = -1.0 if v.sign() else 1.0
+        if v.isInf():
+            return sign * INF
+        srt = v.sort()
+        m, bias = srt.sbits() - 1, 2 ** (srt.ebits() - 1) - 1
+        e, f = v.exponent_as_long(True), v.significand_as_long()
+        if e == 0:  # zero or subnormal
+            return sign * float(f * Fraction(2) ** (1 - bias - m))
+        return sign * float((2**m + f) * Fraction(2) ** (e - bias - m))
 
     def bool(self, term: z3.BoolRef) -> bool:
         v = z3.simplify(term)
@@ -423,8 +453,15 @@ def test_every_term_lives_in_the_given_context(Z):
 OPS = {"<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge,
        "==": operator.eq, "!=": operator.ne}
 
-# Operand pairs for the default run; the slow run uses many more.
-PAIRS = float_pairs(2000, seed=20240611)
+# Operand pairs for the default run: every pair of a core of the special values,
+# then random ones; the slow run pairs every special value and many more.
+CORE_FLOATS = [
+    0.0, -0.0, INF, -INF, NAN, DBL_TRUE_MIN, -DBL_TRUE_MIN, bits_to_float(0x000FFFFFFFFFFFFF),
+    DBL_MIN, -DBL_MIN, DBL_MAX, -DBL_MAX, 0.1, 0.2, 0.3, -0.1, 0.5, -0.5, 1.0, -1.0, 1.5,
+    2.5, -2.5, 3.0, -3.0, 5.0, -5.0, 7.0, 0.75, 1 / 3, 2.0**53, 2.0**53 - 1, 2.0**52 + 0.5,
+    1e300, -1e300, 1e-300, 1e308, 1 - 2.0**-53, 1e16,
+]
+PAIRS = float_pairs(3500, seed=20240611, specials=CORE_FLOATS)
 
 
 def test_float_pairs_cover_the_interesting_cases():
@@ -437,9 +474,9 @@ def test_float_pairs_cover_the_interesting_cases():
 def test_compare_matches_cpython(Z):
     # Language Reference 6.10 / IEEE 754-2019 §5.11
     cases = []
-    for a, b in PAIRS[:1500]:
-        for op, fn in OPS.items():
-            cases.append(((a, op, b), Z.bool(F.compare(op, Z.c(a), Z.c(b))), fn(a, b)))
+    for op, fn in OPS.items():
+        term = Z.fn(lambda a, b: F.compare(op, a, b), Z.F64, Z.F64)
+        cases += [((a, op, b), Z.bool(term(a, b)), fn(a, b)) for a, b in PAIRS]
     check_all(cases, "compare")
 
 
@@ -473,11 +510,11 @@ def int_float_pairs(seed: int, count: int):
 
 def test_compare_int_float_matches_cpython(Z):
     # CPython float_richcompare: exact comparison of the values
+    pairs = int_float_pairs(seed=7, count=2500)
     cases = []
-    for n, x in int_float_pairs(seed=7, count=1600):
-        zn, zx = z3.IntVal(n, Z.ctx), Z.c(x)
-        for op, fn in OPS.items():
-            cases.append(((n, op, x), Z.bool(F.compare_int_float(op, zn, zx, Z.ctx)), fn(n, x)))
+    for op, fn in OPS.items():
+        term = Z.fn(lambda n, x: F.compare_int_float(op, n, x, Z.ctx), Z.INT, Z.F64)
+        cases += [((n, op, x), Z.bool(term(n, x)), fn(n, x)) for n, x in pairs]
     check_all(cases, "compare_int_float")
 
 
@@ -487,8 +524,9 @@ def test_compare_int_float_matches_cpython(Z):
 def test_from_int_matches_cpython_and_the_exact_reference(Z):
     # PyLong_AsDouble: one rounding, OverflowError beyond the rounding to DBL_MAX
     cases = []
+    term = Z.fn(lambda n: F.from_int(n, Z.ctx), Z.INT)
     for n in SPECIAL_INTS + random_ints(1500, seed=3):
-        value, overflow = F.from_int(z3.IntVal(n, Z.ctx), Z.ctx)
+        value, overflow = term(n)
         expected = outcome(float, n)
         got = ("raised", OverflowError) if Z.bool(overflow) else ("returned", Z.float(value))
         cases.append(((n,), got, expected))
@@ -537,8 +575,9 @@ def int_division_pairs(count: int, seed: int):
 def test_int_true_div_matches_cpython_and_the_exact_reference(Z):
     # long_true_divide: correctly rounded, OverflowError when the result rounds to inf
     cases = []
-    for p, q in int_division_pairs(1500, seed=17):
-        value, overflow = F.int_true_div(z3.IntVal(p, Z.ctx), z3.IntVal(q, Z.ctx), Z.ctx)
+    term = Z.fn(lambda p, q: F.int_true_div(p, q, Z.ctx), Z.INT, Z.INT)
+    for p, q in int_division_pairs(2500, seed=17):
+        value, overflow = term(p, q)
         got = ("raised", OverflowError) if Z.bool(overflow) else ("returned", Z.float(value))
         cases.append(((p, q), got, outcome(operator.truediv, p, q)))
         ref = FLOAT64.round(Fraction(p, q)) if p else (-0.0 if q < 0 else 0.0)
@@ -573,8 +612,8 @@ def test_int_true_div_signs_of_zero_and_the_boundary(Z):
                                       ("mul", operator.mul), ("div", operator.truediv)])
 def test_basic_arithmetic_matches_cpython(Z, name, fn):
     # IEEE 754-2019 §5.4.1; Python raises for division by ±0.0, which div assumes away
-    build = getattr(F, name)
-    cases = [((a, b), Z.float(build(Z.c(a), Z.c(b), Z.ctx)), fn(a, b))
+    term = Z.fn(lambda a, b: getattr(F, name)(a, b, Z.ctx), Z.F64, Z.F64)
+    cases = [((a, b), Z.float(term(a, b)), fn(a, b))
              for a, b in PAIRS if not (name == "div" and b == 0)]
     check_all(cases, name)
 
@@ -585,15 +624,15 @@ def divisor_pairs(pairs):
 
 def test_mod_matches_cpython(Z):
     # CPython float_rem; b == ±0 raises ZeroDivisionError and is the caller's guard
-    cases = [((a, b), Z.float(F.mod(Z.c(a), Z.c(b), Z.ctx)), a % b)
-             for a, b in divisor_pairs(PAIRS)]
+    term = Z.fn(lambda a, b: F.mod(a, b, Z.ctx), Z.F64, Z.F64)
+    cases = [((a, b), Z.float(term(a, b)), a % b) for a, b in divisor_pairs(PAIRS)]
     check_all(cases, "%")
 
 
 def test_floordiv_matches_cpython(Z):
     # CPython _float_div_mod
-    cases = [((a, b), Z.float(F.floordiv(Z.c(a), Z.c(b), Z.ctx)), a // b)
-             for a, b in divisor_pairs(PAIRS)]
+    term = Z.fn(lambda a, b: F.floordiv(a, b, Z.ctx), Z.F64, Z.F64)
+    cases = [((a, b), Z.float(term(a, b)), a // b) for a, b in divisor_pairs(PAIRS)]
     check_all(cases, "//")
 
 
@@ -650,20 +689,22 @@ def _exhaustive(Z, fmt):
     """Every pair of a small format: the encoding against the exact references."""
     ref = Ref(fmt)
     ctx = Z.ctx
-    values = fmt.values()
-    consts = {struct.pack("<d", v): Z.c(v, fmt) for v in values}
+    s = Z.sort(fmt)
+    fmod = Z.fn(lambda a, b: F._fmod(a, b, ctx), s, s, fmt=fmt)
+    mod = Z.fn(lambda a, b: F.mod(a, b, ctx), s, s, fmt=fmt)
+    floordiv = Z.fn(lambda a, b: F.floordiv(a, b, ctx), s, s, fmt=fmt)
+    values = [v for v in fmt.values() if not math.isnan(v)] + [NAN]  # z3 has one NaN
     cases = []
     for a in values:
         for b in values:
             if b == 0:
                 continue
-            za, zb = consts[struct.pack("<d", a)], consts[struct.pack("<d", b)]
-            cases.append(((fmt, a, b, "fmod"), Z.float(F._fmod(za, zb, ctx)), ref.fmod(a, b)))
-            m = Z.float(F.mod(za, zb, ctx))
+            cases.append(((fmt, a, b, "fmod"), Z.float(fmod(a, b)), ref.fmod(a, b)))
+            m = Z.float(mod(a, b))
             cases.append(((fmt, a, b, "%"), m, ref.mod(a, b)))
             if _finite(a, b):
                 cases.append(((fmt, a, b, "% exact"), m, ref.exact_mod(a, b)))
-            cases.append(((fmt, a, b, "//"), Z.float(F.floordiv(za, zb, ctx)), ref.floordiv(a, b)))
+            cases.append(((fmt, a, b, "//"), Z.float(floordiv(a, b)), ref.floordiv(a, b)))
     check_all(cases, "")
     return len(cases)
 
@@ -687,8 +728,9 @@ FLOATS = SPECIAL_FLOATS + random_floats(1500, seed=23)
 
 def test_neg_fabs_match_cpython(Z):
     cases = []
+    neg = Z.fn(lambda a: F.neg(a, Z.ctx), Z.F64)
     for a in FLOATS:
-        cases.append(((a, "-"), Z.float(F.neg(Z.c(a), Z.ctx)), -a))
+        cases.append(((a, "-"), Z.float(neg(a)), -a))
         cases.append(((a, "fabs"), Z.float(F.fabs(Z.c(a), Z.ctx)), math.fabs(a)))
         cases.append(((a, "abs"), Z.float(F.fabs(Z.c(a), Z.ctx)), abs(a)))
     check_all(cases, "")
@@ -743,10 +785,11 @@ def test_float_to_int_matches_cpython(Z, name, fn):
 def test_min_max_match_the_builtins(Z):
     # builtin min/max keep the first of equal items; with NaN the order decides
     cases = []
+    py_min = Z.fn(lambda a, b: F.py_min(a, b, Z.ctx), Z.F64, Z.F64)
+    py_max = Z.fn(lambda a, b: F.py_max(a, b, Z.ctx), Z.F64, Z.F64)
     for a, b in PAIRS:
-        za, zb = Z.c(a), Z.c(b)
-        cases.append(((a, b, "min"), Z.float(F.py_min(za, zb, Z.ctx)), min(a, b)))
-        cases.append(((a, b, "max"), Z.float(F.py_max(za, zb, Z.ctx)), max(a, b)))
+        cases.append(((a, b, "min"), Z.float(py_min(a, b)), min(a, b)))
+        cases.append(((a, b, "max"), Z.float(py_max(a, b)), max(a, b)))
     check_all(cases, "")
     assert same(Z.float(F.py_min(Z.c(0.0), Z.c(-0.0), Z.ctx)), 0.0)
     assert same(Z.float(F.py_max(Z.c(-0.0), Z.c(0.0), Z.ctx)), -0.0)
@@ -755,7 +798,8 @@ def test_min_max_match_the_builtins(Z):
 
 
 def test_copysign_matches_math_copysign_when_the_sign_source_is_not_nan(Z):
-    cases = [((a, b), Z.float(F.copysign(Z.c(a), Z.c(b), Z.ctx)), math.copysign(a, b))
+    term = Z.fn(lambda a, b: F.copysign(a, b, Z.ctx), Z.F64, Z.F64)
+    cases = [((a, b), Z.float(term(a, b)), math.copysign(a, b))
              for a, b in PAIRS if not math.isnan(b)]
     check_all(cases, "copysign")
     assert Z.float(F.copysign(Z.c(3.0), Z.c(-0.0), Z.ctx)) == -3.0
@@ -825,40 +869,40 @@ def test_solver_proves_int_float_comparisons_consistent(Z):
 
 # ---------------------------------------------------------------- the slow run
 
-SLOW_PAIRS = float_pairs(25000, seed=99)
-
 
 @pytest.mark.slow
 def test_slow_arithmetic_mod_floordiv_min_max_against_cpython(Z):
     ctx = Z.ctx
+    pairs = float_pairs(40000, seed=99)
     cases = []
-    for a, b in SLOW_PAIRS:
-        za, zb = Z.c(a), Z.c(b)
-        for name, fn in [("add", operator.add), ("sub", operator.sub), ("mul", operator.mul),
-                         ("py_min", min), ("py_max", max)]:
-            cases.append(((a, b, name), Z.float(getattr(F, name)(za, zb, ctx)), fn(a, b)))
-        if b != 0:
-            cases.append(((a, b, "div"), Z.float(F.div(za, zb, ctx)), a / b))
-            cases.append(((a, b, "%"), Z.float(F.mod(za, zb, ctx)), a % b))
-            cases.append(((a, b, "//"), Z.float(F.floordiv(za, zb, ctx)), a // b))
-        for op, fn in OPS.items():
-            cases.append(((a, op, b), Z.bool(F.compare(op, za, zb)), fn(a, b)))
+    for name, fn in [("add", operator.add), ("sub", operator.sub), ("mul", operator.mul),
+                     ("div", operator.truediv), ("mod", operator.mod),
+                     ("floordiv", operator.floordiv), ("py_min", min), ("py_max", max)]:
+        term = Z.fn(lambda a, b: getattr(F, name)(a, b, ctx), Z.F64, Z.F64)
+        divides = name in ("div", "mod", "floordiv")
+        cases += [((a, b, name), Z.float(term(a, b)), fn(a, b))
+                  for a, b in pairs if not (divides and b == 0)]
+    for op, fn in OPS.items():
+        term = Z.fn(lambda a, b: F.compare(op, a, b), Z.F64, Z.F64)
+        cases += [((a, op, b), Z.bool(term(a, b)), fn(a, b)) for a, b in pairs]
     check_all(cases, "")
 
 
 @pytest.mark.slow
 def test_slow_int_conversions_against_cpython(Z):
     ctx = Z.ctx
+    true_div = Z.fn(lambda p, q: F.int_true_div(p, q, ctx), Z.INT, Z.INT)
+    from_int = Z.fn(lambda n: F.from_int(n, ctx), Z.INT)
     cases = []
     for p, q in int_division_pairs(20000, seed=31):
-        value, overflow = F.int_true_div(z3.IntVal(p, ctx), z3.IntVal(q, ctx), ctx)
+        value, overflow = true_div(p, q)
         got = ("raised", OverflowError) if Z.bool(overflow) else ("returned", Z.float(value))
         cases.append(((p, q), got, outcome(operator.truediv, p, q)))
-        value, overflow = F.from_int(z3.IntVal(p, ctx), ctx)
+        value, overflow = from_int(p)
         got = ("raised", OverflowError) if Z.bool(overflow) else ("returned", Z.float(value))
         cases.append(((p,), got, outcome(float, p)))
-    for n, x in int_float_pairs(seed=41, count=20000):
-        for op, fn in OPS.items():
-            got = Z.bool(F.compare_int_float(op, z3.IntVal(n, ctx), Z.c(x), ctx))
-            cases.append(((n, op, x), got, fn(n, x)))
+    pairs = int_float_pairs(seed=41, count=20000)
+    for op, fn in OPS.items():
+        term = Z.fn(lambda n, x: F.compare_int_float(op, n, x, ctx), Z.INT, Z.F64)
+        cases += [((n, op, x), Z.bool(term(n, x)), fn(n, x)) for n, x in pairs]
     check_all(cases, "")

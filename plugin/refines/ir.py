@@ -379,12 +379,17 @@ class Outcome:
     exception: Optional[type] = None  # set when it raises
     line: int = 0
     cause: str = ""  # for raises: the statement or operation that raises
+    # Set when what happens here is not modelled (e.g. the sign of a NaN):
+    # such an outcome can neither prove nor refute, only make a check unknown.
+    unmodelled: str = ""
 
     @property
     def returns(self) -> bool:
-        return self.exception is None
+        return self.exception is None and not self.unmodelled
 
     def __repr__(self) -> str:
+        if self.unmodelled:
+            return f"{render(self.guard)}  ->  not modelled: {self.unmodelled}"
         if self.returns:
             end = f"result = {render_value(self.value)}"
         else:

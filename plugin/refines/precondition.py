@@ -45,7 +45,10 @@ class Preconditions:
 
 
 def weakest(behaviour: ir.Behaviour, spec) -> ir.Term:
-    return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes))
+    # An unmodelled outcome contributes nothing: its inputs are left out, so the
+    # condition is then sufficient rather than exact (the report says so).
+    return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes
+                    if not o.unmodelled))
 
 
 def exact(ob, behaviour: ir.Behaviour, spec, solver) -> Preconditions:

@@ -140,6 +140,11 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     status, model, why = solver.check(spec.assuming.holds,
                                       ir.or_(*(v.term for v in found)))
     if status == z3.unsat:
+        gap = _unmodelled(ob, behaviour, spec, solver)
+        if gap is not None:
+            result.verdict, result.reason = UNKNOWN, gap
+            result.hint = "exclude those inputs with assuming=, or check them by testing"
+            return result
         result.verdict = PROVED
         return result
     if status == z3.unknown:
@@ -170,6 +175,11 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         violated=judgement.violated, violated_at=judgement.violated_at,
         detail=judgement.detail or (str(actual.raised) if actual.raised else ""))
 
+    if any(o.unmodelled for o in behaviour.outcomes):
+        result.precondition_note = ("not computed: part of the behaviour is not modelled "
+                                    "(" + next(o.unmodelled for o in behaviour.outcomes
+                                               if o.unmodelled) + ")")
+        return result
     try:
         pre = precondition.exact(ob, behaviour, spec, solver)
     except Exception as exc:  # noqa: BLE001 -- the refutation stands on its own
@@ -186,9 +196,29 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     return result
 
 
+def _unmodelled(ob: Obligation, behaviour: ir.Behaviour, spec, solver: Solver):
+    """Why the proof does not cover everything, if an unmodelled outcome is
+    reachable under ``assuming``; None when none is."""
+    for o in behaviour.outcomes:
+        if not o.unmodelled:
+            continue
+        status, model, _ = solver.check(spec.assuming.holds, o.guard)
+        if status == z3.unsat:
+            continue
+        where = ob.where(ob.path, o.line)
+        if status == z3.sat:
+            inputs = {p.name: solver.value(model, p) for p in ob.params}
+            return (f"not proved: {o.unmodelled} ({where}) happens for "
+                    f"{replay.call_text(ob, inputs)}; every other outcome meets the spec")
+        return f"not proved: {o.unmodelled} ({where}) may happen"
+    return None
+
+
 def _predicted(solver: Solver, model, behaviour: ir.Behaviour) -> str:
     for o in behaviour.outcomes:
         if z3.is_true(model.eval(solver.lower(o.guard), model_completion=True)):
+            if o.unmodelled:
+                return f"reaches something not modelled ({o.unmodelled})"
             if o.returns:
                 return f"returns {solver.value(model, o.value)!r}"
             return f"raises {o.exception.__name__}"

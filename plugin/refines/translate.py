@@ -212,6 +212,14 @@ class Translator:
         self.outcomes.append(ir.Outcome(guard, exception=exc, line=line, cause=cause))
         self.live = ir.conj(self.live, ir.not_(cond))
 
+    def unmodelled_when(self, cond: ir.Term, line: int, why: str) -> None:
+        """Where ``cond`` holds, what Python does here is not modelled."""
+        guard = ir.conj(self.live, cond)
+        if ir.is_false(guard):
+            return
+        self.outcomes.append(ir.Outcome(guard, line=line, unmodelled=why))
+        self.live = ir.conj(self.live, ir.not_(cond))
+
     def finish(self, value: ir.Value, line: int) -> None:
         if not ir.is_false(self.live):
             self.outcomes.append(ir.Outcome(self.live, value=value, line=line))
@@ -806,6 +814,12 @@ class Translator:
         if name == "sqrt":
             self.raise_when(ir.cmp("<", xs[0], ir.const(0.0)), ValueError, node.lineno,
                             "math domain error")
+        if name == "copysign":
+            # CPython reads the sign bit of a NaN (-float('nan') is negative);
+            # the solver's NaN has no sign.
+            self.unmodelled_when(ir.op("isnan", xs[1], sort=ir.BOOL), node.lineno,
+                                 "math.copysign with a NaN second argument (the sign "
+                                 "bit of a NaN is not modelled)")
         return ir.op(name, *xs, sort=ir.FLOAT)
 
     def call_bool(self, name, args, node):
