@@ -297,7 +297,11 @@ def arith(op: str, left: Term, right: Term) -> Term:
 
 def neg(a: Term) -> Term:
     if a.sort == FLOAT:
-        return a.arg if isinstance(a, Neg) else Neg(a, FLOAT)
+        # -2.0 is a constant (CPython folds it too); -(-x) is NOT x: it has x's
+        # value but is a new object, which tuple identity can tell apart.
+        if isinstance(a, Const):
+            return Const(-a.value, FLOAT)
+        return Neg(a, FLOAT)
     a = as_int(a)
     if isinstance(a, Const):
         return const(-a.value)

@@ -147,11 +147,12 @@ class Scope:
         else:
             raise Untranslatable("name", line, {"name": name})
         # Python's bool is an int subclass; both are modelled exactly, as are floats.
+        # Keyed by the object: two names bound to one NaN are one object.
         if isinstance(value, (bool, int, float)):
-            if name not in self._constants:
-                self._constants[name] = (ir.const(value) if not isinstance(value, float)
-                                         else ir.Const(value, ir.FLOAT))
-            return self._constants[name]
+            if id(value) not in self._constants:
+                self._constants[id(value)] = (ir.const(value) if not isinstance(value, float)
+                                              else ir.Const(value, ir.FLOAT))
+            return self._constants[id(value)]
         if value is None:
             return ir.NONE
         raise Untranslatable("name", line, {"name": name})
@@ -686,6 +687,10 @@ class Translator:
                 return ir.Tup(())
             return ir.Tup(container.items[slice(*bounds)])
         index = self.scalar(self.expr(node.slice), node, "[]")
+        if index.sort == ir.FLOAT:
+            self.raise_when(ir.TRUE, TypeError, node.lineno,
+                            "tuple indices must be integers or slices, not float")
+            return ir.const(0)
         n = len(container.items)
         if isinstance(index, ir.Const):
             if -n <= index.value < n:
