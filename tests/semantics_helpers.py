@@ -6,7 +6,16 @@ reads the function through the same path the plugin uses
 ``translate.translate_body``) and returns a ``Translated`` that can be asked,
 for concrete inputs, what the translation predicts (``predict``) and what
 CPython actually does (``run``). Both answers are ``("returned", value)`` or
-``("raised", exception class)`` so tests compare them directly.
+``("raised", exception class)`` so tests compare them directly. A prediction
+can also be ``("unmodelled", why)``: the translation says it does not know
+what happens there (e.g. the sign of a NaN), which is no claim to compare.
+
+Floats are exact both ways: a concrete float input becomes the z3 constant
+with the same IEEE 754 binary64 value (-0.0, subnormals, infinities; any NaN
+becomes z3's single NaN), a float the translation predicts is read back
+through its bit pattern, and floats compare bit-exactly (``struct.pack('<d')``
+-- so 0.0 and -0.0 differ), except that any NaN matches any NaN: z3 has one
+NaN without sign or payload, so the sign of a NaN is not compared.
 
 Predictions are computed in a private ``z3.Context`` per translated function:
 every z3 object of one evaluation comes from that context (mixing contexts can
@@ -18,9 +27,11 @@ from __future__ import annotations
 import atexit
 import importlib.util
 import itertools
+import math
 import operator
 import os
 import shutil
+import struct
 import sys
 import tempfile
 import textwrap
@@ -29,12 +40,15 @@ from typing import Any, Callable, List, Optional, Sequence, Tuple
 
 import z3
 
-from refines import ir
+from refines import fpmath, ir
 from refines.lower import Lowering
 from refines.source import find_function, read_params
 from refines.translate import Scope, translate_body
 
-Result = Tuple[str, Any]  # ("returned", value) or ("raised", exception class)
+# ("returned", value) or ("raised", exception class); predictions may also be
+# ("unmodelled", reason).
+Result = Tuple[str, Any]
+UNMODELLED = "unmodelled"
 
 _DIR: Optional[str] = None
 _COUNTER = itertools.count()
@@ -92,6 +106,10 @@ class Evaluator:
     def _constant(self, value: Any, sort: str):
         if sort == ir.BOOL:
             return z3.BoolVal(bool(value), self.ctx)
+        if sort == ir.FLOAT:
+            if type(value) is not float:  # the annotation says float: no silent conversion
+                raise TypeError(f"a float parameter needs a float input, not {value!r}")
+            return fpmath.const(value, self.ctx)  # the exact binary64 value
         return z3.IntVal(int(value), self.ctx)
 
     def substitution(self, args: Sequence[Any]):
@@ -107,6 +125,8 @@ class Evaluator:
             return False
         if z3.is_int_value(e):
             return e.as_long()
+        if z3.is_fp_value(e):
+            return read_float(e)
         raise AssertionError(f"did not evaluate to a constant: {e}")
 
     def _value(self, lowered, subst) -> Any:
@@ -116,6 +136,10 @@ class Evaluator:
         if kind == "none":
             return None
         v = self.concrete(payload, subst)
+        if kind == ir.FLOAT:
+            assert type(v) is float, f"a float term evaluated to {v!r}"
+            return v
+        assert type(v) is not float, f"an {kind} term evaluated to the float {v!r}"
         return bool(v) if kind == ir.BOOL else int(v)
 
     def holding(self, args: Sequence[Any]) -> List[int]:
@@ -134,9 +158,49 @@ class Evaluator:
             f"on {tuple(args)!r}: {len(hits)} outcome guards hold (expected exactly 1)\n"
             f"{self.behaviour!r}")
         o = self.behaviour.outcomes[hits[0]]
+        if o.unmodelled:
+            return (UNMODELLED, o.unmodelled)
         if not o.returns:
             return ("raised", o.exception)
         return ("returned", self._value(self.values[hits[0]], self.substitution(args)))
+
+
+def read_float(e: z3.FPNumRef) -> float:
+    """The Python float of a z3 Float64 numeral, exactly.
+
+    NaN first (z3 has one NaN: it reads as ``float('nan')``), then the IEEE
+    754 bit pattern (``fpToIEEEBV``) unpacked with ``struct``; that keeps
+    -0.0, infinities and subnormals, which printing the numeral does not.
+    """
+    ctx = e.ctx
+    if z3.is_true(z3.simplify(z3.fpIsNaN(e, ctx=ctx))):
+        return float("nan")
+    bits = z3.simplify(z3.fpToIEEEBV(e, ctx=ctx))
+    assert z3.is_bv_value(bits) and bits.size() == 64, f"not a binary64 numeral: {e}"
+    return struct.unpack("<d", struct.pack("<Q", bits.as_long()))[0]
+
+
+def distinct_objects(args: Sequence[Any]) -> Tuple[Any, ...]:
+    """``args`` with every NaN replaced by a new object with the same bits.
+
+    The translation takes distinct parameters to be distinct objects, and for
+    NaN that is visible: ``x in (y,)`` compares by identity first, so it is
+    true when ``x`` and ``y`` are the same NaN object (a grid reuses one).
+    Other values equal themselves anyway, so their identity is invisible.
+    """
+    return tuple(struct.unpack("<d", float_bits(a))[0] if type(a) is float and a != a else a
+                 for a in args)
+
+
+def float_bits(v: float) -> bytes:
+    return struct.pack("<d", v)
+
+
+def same_float(a: float, b: float) -> bool:
+    """Bit-exact equality of two floats; any NaN matches any NaN (z3 has one NaN)."""
+    if a != a or b != b:
+        return a != a and b != b
+    return float_bits(a) == float_bits(b)
 
 
 @dataclass
@@ -150,16 +214,20 @@ class Translated:
         return self.evaluator.predict(args)
 
     def run(self, *args: Any) -> Result:
-        return run_python(self.fn, args)
+        return run_python(self.fn, distinct_objects(args))
 
-    def mismatch(self, *args: Any) -> Optional[str]:
-        """``None`` if translation and CPython agree on ``args``, else a description."""
+    def mismatch(self, *args: Any, allow_unmodelled: bool = True) -> Optional[str]:
+        """``None`` if translation and CPython agree on ``args``, else a description.
+
+        Where the translation says the outcome is not modelled it claims
+        nothing, so that agrees -- unless ``allow_unmodelled`` is false.
+        """
         expected = self.run(*args)
         try:
             got = self.predict(*args)
         except AssertionError as exc:  # no single outcome, or no constant value
             return f"{self.fn.__name__}{tuple(args)!r}: CPython {expected}, translation: {exc}"
-        if same(expected, got):
+        if same(expected, got) or (got[0] == UNMODELLED and allow_unmodelled):
             return None
         return f"{self.fn.__name__}{tuple(args)!r}: CPython {expected}, translation {got}"
 
@@ -177,8 +245,12 @@ def same(expected: Result, got: Result) -> bool:
     a bool, CPython's must be one (``True + 1`` is the int 2, not a bool). The
     other direction is allowed -- a value that is a bool on one path and an int
     on another (``b and x``) is modelled as an int.
+
+    Floats match only floats (``1.0 == 1`` is not enough: the type is part of
+    the outcome), and bit-exactly: ``0.0`` and ``-0.0`` differ; two NaNs match
+    whatever their signs and payloads (see ``same_float``).
     """
-    if expected[0] != got[0]:
+    if expected[0] != got[0] or UNMODELLED in (expected[0], got[0]):
         return False
     if expected[0] == "raised":
         return expected[1] is got[1]
@@ -191,6 +263,8 @@ def _same_value(a: Any, b: Any) -> bool:
                 and all(_same_value(x, y) for x, y in zip(a, b)))
     if a is None or b is None:
         return a is b
+    if type(a) is float or type(b) is float:
+        return type(a) is float and type(b) is float and same_float(a, b)
     if type(a) not in (int, bool) or type(b) not in (int, bool):
         return False
     if type(b) is bool and type(a) is not bool:
@@ -224,18 +298,24 @@ def grid(*axes: Sequence[Any]) -> List[Tuple[Any, ...]]:
 
 SMALL = (-3, -1, 0, 1, 2, 4)
 BOOLS = (False, True)
+# IEEE 754 corner cases a grid over a float parameter visits by default.
+FLOATS = (0.0, -0.0, 1.0, -2.5, 0.1, 5e-324, 1.7976931348623157e308,
+          float("inf"), float("-inf"), float("nan"))
 
 
-def inputs_for(params: Sequence[ir.Var], ints: Sequence[int] = SMALL) -> List[Tuple]:
+def inputs_for(params: Sequence[ir.Var], ints: Sequence[int] = SMALL,
+               floats: Sequence[float] = FLOATS) -> List[Tuple]:
     """All combinations of small values for the parameters' sorts."""
-    axes = [BOOLS if p.sort == ir.BOOL else ints for p in params]
+    axes = [BOOLS if p.sort == ir.BOOL else floats if p.sort == ir.FLOAT else ints
+            for p in params]
     return grid(*axes)
 
 
-def check_agrees(source: str, ints: Sequence[int] = SMALL, name: str = "f") -> Translated:
+def check_agrees(source: str, ints: Sequence[int] = SMALL, name: str = "f",
+                 floats: Sequence[float] = FLOATS) -> Translated:
     """Translate ``source`` and assert it agrees with CPython on a grid of inputs."""
     t = translated(source, name)
-    bad = t.agrees(*inputs_for(t.behaviour.params, ints))
+    bad = t.agrees(*inputs_for(t.behaviour.params, ints, floats))
     assert not bad, "\n".join(bad[:10]) + f"\n{len(bad)} mismatches\n{t.behaviour!r}"
     return t
 
@@ -248,12 +328,30 @@ CMP = {"<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge,
         "==": operator.eq, "!=": operator.ne}
 
 
+# Float terms: ``/`` too, and the named operations, each as CPython computes it.
+FLOAT_ARITH = dict(ARITH, **{"/": operator.truediv})
+_FLOAT_MAX_INT = 2**1024 - 2**970  # the least int magnitude float() rejects
+PY_OPS = {
+    "float": float,
+    "float_overflows": lambda n: abs(n) >= _FLOAT_MAX_INT,
+    "int_truediv": operator.truediv,
+    "int_truediv_overflows": lambda p, q: abs(p) >= _FLOAT_MAX_INT * abs(q),
+    "fabs": math.fabs, "min": min, "max": max, "sqrt": math.sqrt,
+    "copysign": math.copysign, "isnan": math.isnan, "isinf": math.isinf,
+    "isfinite": math.isfinite, "trunc": int, "floor": math.floor, "ceil": math.ceil,
+}
+
+
 def py_eval(t: ir.Term, env: dict):
     """CPython's value of a term (Python's operators; short-circuit and/or/ite)."""
     if isinstance(t, ir.Var):
         return env[t.name]
     if isinstance(t, ir.Const):
         return t.value
+    if isinstance(t, ir.Op):
+        return PY_OPS[t.name](*(py_eval(a, env) for a in t.args))
+    if isinstance(t, ir.Arith) and t.sort == ir.FLOAT:
+        return FLOAT_ARITH[t.op](py_eval(t.left, env), py_eval(t.right, env))
     if isinstance(t, ir.Arith):
         return ARITH[t.op](py_eval(t.left, env), py_eval(t.right, env))
     if isinstance(t, ir.Neg):

@@ -516,6 +516,9 @@ class Translator:
         if (isinstance(base, ir.Const) and isinstance(exponent, ir.Const)
                 and base.sort != ir.FLOAT and 0 <= exponent.value <= 4096):
             return ir.const(int(base.value) ** int(exponent.value))  # e.g. 2 ** 1024
+        if (isinstance(base, ir.Const) and isinstance(exponent, ir.Const)
+                and base.sort != ir.FLOAT and exponent.value < 0):
+            return self.float_binop("**", base, exponent, node)  # 2 ** -1 is 0.5
         if not (isinstance(exponent, ir.Const) and exponent.sort == ir.INT
                 and 0 <= exponent.value <= _MAX_POWER):
             return self.refuse("power", node.lineno, {"construct": node.as_string()})
