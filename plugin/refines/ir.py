@@ -141,8 +141,6 @@ OP_TEMPLATES = {
     "int_truediv": "{0} / {1}",
     "int_truediv_overflows": "abs({0}) >= (2 ** 1024 - 2 ** 970) * abs({1})",
     "fabs": "abs({0})",
-    "min": "min({0}, {1})",
-    "max": "max({0}, {1})",
     "sqrt": "math.sqrt({0})",
     "copysign": "math.copysign({0}, {1})",
     "isnan": "math.isnan({0})",

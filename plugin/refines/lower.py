@@ -20,8 +20,6 @@ OPS = {
     "int_truediv": lambda ctx, p, q: fpmath.int_true_div(p, q, ctx)[0],
     "int_truediv_overflows": lambda ctx, p, q: fpmath.int_true_div(p, q, ctx)[1],
     "fabs": lambda ctx, a: fpmath.fabs(a, ctx),
-    "min": lambda ctx, a, b: fpmath.py_min(a, b, ctx),
-    "max": lambda ctx, a, b: fpmath.py_max(a, b, ctx),
     "sqrt": lambda ctx, a: fpmath.sqrt(a, ctx)[0],
     "copysign": lambda ctx, a, b: fpmath.copysign(a, b, ctx),
     "isnan": lambda ctx, a: fpmath.isnan(a, ctx),

@@ -102,21 +102,29 @@ def check(ob: Obligation, timeout: float) -> Result:
     result = _base(ob)
     try:
         result = _check(ob, Budget(timeout), result)
-    except Untranslatable as exc:
-        result.verdict = UNKNOWN
-        result.reason = f"not translated: {exc.text} ({ob.where(ob.path, exc.line)})"
-        result.hint, result.message_key = exc.hint, exc.key
-    except SpecError as exc:
-        result.verdict = ERROR
-        result.reason = f"{ob.where(exc.path or ob.path, exc.line)}: {exc.text}"
-        result.hint, result.message_key = exc.hint, exc.key
     except Exception as exc:  # noqa: BLE001 -- never crash the session
-        result.verdict = ERROR
-        result.reason = (f"internal error while checking {ob.function} "
-                         f"({ob.where(ob.path, ob.line)}): {type(exc).__name__}: {exc}")
-        result.notes.append(traceback.format_exc())
+        _record(result, exc, ob.path, ob.show, f"checking {ob.function}", ob.line)
     result.seconds = time.perf_counter() - start
     return result
+
+
+def _record(result: Result, exc: Exception, path: str, show: Callable[[str], str],
+            doing: str, line: int) -> None:
+    """Turn what stopped a check into its verdict: a construct not modelled is
+    ``unknown``, a malformed spec or an internal failure is ``error``."""
+    if isinstance(exc, Untranslatable):
+        result.verdict = UNKNOWN
+        result.reason = f"not translated: {exc.text} ({show(path)}:{exc.line})"
+        result.hint, result.message_key = exc.hint, exc.key
+    elif isinstance(exc, SpecError):
+        result.verdict = ERROR
+        result.reason = f"{show(exc.path or path)}:{exc.line}: {exc.text}"
+        result.hint, result.message_key = exc.hint, exc.key
+    else:
+        result.verdict = ERROR
+        result.reason = (f"internal error while {doing} ({show(path)}:{line}): "
+                         f"{type(exc).__name__}: {exc}")
+        result.notes.append(traceback.format_exc())
 
 
 def _base(ob: Obligation) -> Result:
@@ -258,17 +266,8 @@ def check_function(fn, index: int, path: str, module: str, timeout: float,
                   line=written.__code__.co_firstlineno)
     try:
         ob = read_obligation(fn, index, path, module, show)
-    except Untranslatable as exc:
-        base.verdict = UNKNOWN
-        base.reason = f"not translated: {exc.text} ({show(path)}:{exc.line})"
-        base.hint, base.message_key = exc.hint, exc.key
-    except SpecError as exc:
-        base.reason = f"{show(exc.path or path)}:{exc.line}: {exc.text}"
-        base.hint, base.message_key = exc.hint, exc.key
     except Exception as exc:  # noqa: BLE001 -- never crash the session
-        base.reason = (f"internal error while reading the spec of {base.function} "
-                       f"({show(path)}:{base.line}): {type(exc).__name__}: {exc}")
-        base.notes.append(traceback.format_exc())
+        _record(base, exc, path, show, f"reading the spec of {base.function}", base.line)
     else:
         return check(ob, timeout)
     base.seconds = time.perf_counter() - start
