@@ -764,10 +764,10 @@ UNSUPPORTED = [
         y = x * 2
         return helper(y)
     """, "helper(y)"),
-    ("len-call", "call", """
+    ("sorted-call", "call", """
     def f(x: int) -> int:
-        return len((x, x))
-    """, "len("),
+        return sorted((x, x))[0]
+    """, "sorted("),
     ("variable-exponent", "power", """
     def f(x: int, n: int) -> int:
         y = x
@@ -783,16 +783,24 @@ UNSUPPORTED = [
             return x + 2j
         return x
     """, "2j"),
-    ("string-constant", "value", """
+    ("bytes-constant", "value", """
     def f(x: int) -> int:
-        return x * "ab"
-    """, '"ab"'),
+        return x * b"ab"
+    """, 'b"ab"'),
+    ("str-above-constant-alphabet", "value", """
+    def f(x: int) -> int:
+        return len("\U0002A6A5" * x)
+    """, "return len("),
+    ("str-method-not-modelled", "method", """
+    def f(s: str) -> str:
+        return s.upper()
+    """, "s.upper()"),
     ("list-display", "expression", """
     def f(x: int) -> int:
         return [x][0]
     """, "[x]"),
-    ("string-module-constant", "name", """
-    GRADE = "6a+"
+    ("bytes-module-constant", "name", """
+    GRADE = b"6a+"
 
     def f(x: int) -> int:
         return x * GRADE

@@ -41,21 +41,31 @@ MESSAGES: Dict[str, Message] = {
     "expression": Message(
         "`{construct}` expressions are not translated yet",
         "supported: int, bool and float arithmetic (+ - * / // %, ** on ints with "
-        "a constant exponent), comparisons, and/or/not, conditional expressions, "
-        "tuples, abs/min/max/int/bool/float and math.isnan/isinf/isfinite/fabs/"
-        "sqrt/floor/ceil/copysign",
+        "a constant exponent), str (+, * by an int, indexing, slicing, in, "
+        "comparisons, len, str and the methods listed in the docs), comparisons, "
+        "and/or/not, conditional expressions, tuples, abs/min/max/int/bool/float "
+        "and math.isnan/isinf/isfinite/fabs/sqrt/floor/ceil/copysign",
         "@refines(lambda x, result: result >= 0)\n"
         "def f(x: int) -> int:\n    return x.real\n",
         "unsupported",
     ),
     "call": Message(
         "calls to `{callee}` are not translated yet",
-        "the builtins abs, min, max, int, bool, float and the math functions "
-        "isnan, isinf, isfinite, fabs, sqrt, floor, ceil, copysign are modelled; "
-        "calls to other functions arrive with a later release",
+        "the builtins abs, min, max, int, bool, float, len, str, the math functions "
+        "isnan, isinf, isfinite, fabs, sqrt, floor, ceil, copysign and the str "
+        "methods listed in the docs are modelled; calls to other functions arrive "
+        "with a later release",
         "def helper(x):\n    return x\n\n"
         "@refines(lambda x, result: result == x)\n"
         "def f(x: int) -> int:\n    return helper(x)\n",
+        "unsupported",
+    ),
+    "method": Message(
+        "the method `{method}` is not translated yet",
+        "the str methods modelled are {allowed} (with one argument for "
+        "startswith/endswith, and no count for replace)",
+        "@refines(lambda code, result: len(result) == len(code))\n"
+        "def f(code: str) -> str:\n    return code.upper()\n",
         "unsupported",
     ),
     "operator": Message(
@@ -75,37 +85,40 @@ MESSAGES: Dict[str, Message] = {
     ),
     "value": Message(
         "the value `{construct}` of type {type} is not modelled yet",
-        "this release models int, bool, float, tuples of them and None",
+        "this release models int, bool, float, str (code points up to U+1FFFF in "
+        "constants), tuples of them and None",
         "@refines(lambda x, result: result == x)\n"
-        "def f(x: int) -> str:\n    return 'crimp'\n",
+        "def f(x: int) -> bytes:\n    return b'crimp'\n",
         "unsupported",
     ),
     "param-type": Message(
         "parameter `{name}` has the type hint `{hint_text}`, which is not modelled yet",
         "this release proves functions whose parameters are annotated `int`, "
-        "`bool` or `float`",
+        "`bool`, `float` or `str`",
         "@refines(lambda s, result: result == s)\n"
-        "def f(s: str) -> str:\n    return s\n",
+        "def f(s: bytes) -> bytes:\n    return s\n",
         "unsupported",
     ),
     "param-untyped": Message(
         "parameter `{name}` has no type hint; the hint says which values to prove for",
-        "annotate it `int`, `bool` or `float`",
+        "annotate it `int`, `bool`, `float` or `str`",
         "@refines(lambda s, result: result == s)\n"
         "def f(s):\n    return s\n",
         "unsupported",
     ),
     "name": Message(
         "the name `{name}` is not a parameter, a local assigned before this "
-        "line, or a module-level int/bool/float constant",
-        "module constants must be assigned once at module level to an int, bool or float",
-        "GREETING = 'welcome'\n\n@refines(lambda x, result: result == x)\n"
+        "line, or a module-level int/bool/float/str constant",
+        "module constants must be assigned once at module level to an int, bool, "
+        "float or str",
+        "GRADES = ['5a', '6b']\n\n@refines(lambda x, result: result == x)\n"
         "def f(x: int) -> int:\n    return GREETING\n",
         "unsupported",
     ),
     "mixed": Message(
         "`{construct}` holds values of different shapes on different paths ({shapes})",
-        "give the variable one type (int/bool, or tuples of one length) on every path",
+        "give the variable one type (int/bool, float, str, or tuples of one length) "
+        "on every path",
         "@refines(lambda x, result: True)\n"
         "def f(x: int):\n    if x > 0:\n        y = (1, 2)\n    else:\n        y = 3\n"
         "    return y\n",

@@ -24,6 +24,7 @@ from typing import Optional, Tuple, Union
 INT = "int"
 BOOL = "bool"
 FLOAT = "float"  # IEEE 754 binary64, as CPython computes it
+STR = "str"  # a sequence of Unicode code points
 
 ARITH_OPS = ("+", "-", "*", "//", "%")
 CMP_OPS = ("<", "<=", ">", ">=", "==", "!=")
@@ -35,11 +36,11 @@ _PREC = {"ite": 0, "or": 1, "and": 2, "not": 3, "cmp": 4, "+": 5, "-": 5,
          "*": 6, "/": 6, "//": 6, "%": 6, "neg": 7, "atom": 9}
 # Ops printed as an infix expression rather than a call: their strength.
 _OP_PREC = {"int_truediv": 6, "float_overflows": 4,
-            "int_truediv_overflows": 4}
+            "int_truediv_overflows": 4, "contains": 4, "repeat": 6}
 
 
 class Term:
-    """Base of all terms. ``sort`` is ``INT`` or ``BOOL``."""
+    """Base of all terms. ``sort`` is ``INT``, ``BOOL``, ``FLOAT`` or ``STR``."""
 
     sort: str
     __slots__ = ()
@@ -56,7 +57,7 @@ class Var(Term):
 
 @dataclass(frozen=True, repr=False, eq=False)
 class Const(Term):
-    value: Union[int, bool]
+    value: Union[int, bool, float, str]
     sort: str
 
 
@@ -149,7 +150,22 @@ OP_TEMPLATES = {
     "trunc": "int({0})",
     "floor": "math.floor({0})",
     "ceil": "math.ceil({0})",
+    # str (the methods print as methods: see _METHODS)
+    "len": "len({0})",
+    "getitem": "{0}[{1}]",
+    "slice": "{0}[{1}:{2}]",
+    "slice_from": "{0}[{1}:]",
+    "slice_to": "{0}[:{1}]",
+    "contains": "{0} in {1}",
+    "repeat": "{0} * {1}",
+    "str_of_int": "str({0})",
 }
+# Ops printed as ``subject.method(args)``: Python's str methods.
+_METHODS = {"find", "rfind", "startswith", "endswith", "replace"}
+for _name in _METHODS:
+    OP_TEMPLATES[_name] = "{0}." + _name + "(...)"
+# Ops whose first argument is a subject that binds tightest (``(a + b)[0]``).
+_SUBJECT_OPS = _METHODS | {"getitem", "slice", "slice_from", "slice_to"}
 
 
 def op(name: str, *args: Term, sort: str) -> Term:
@@ -160,11 +176,13 @@ TRUE = Const(True, BOOL)
 FALSE = Const(False, BOOL)
 
 
-def const(value: Union[int, bool, float]) -> Const:
+def const(value: Union[int, bool, float, str]) -> Const:
     if isinstance(value, bool):
         return TRUE if value else FALSE
     if isinstance(value, float):
         return Const(value, FLOAT)
+    if isinstance(value, str):
+        return Const(value, STR)
     return Const(value, INT)
 
 
@@ -245,8 +263,8 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
     if is_false(cond):
         return orelse
     if then.sort != orelse.sort:
-        if FLOAT in (then.sort, orelse.sort):
-            raise TypeError("an int and a float do not merge into one term")
+        if FLOAT in (then.sort, orelse.sort) or STR in (then.sort, orelse.sort):
+            raise TypeError(f"an {then.sort} and an {orelse.sort} do not merge into one term")
         then, orelse = as_int(then), as_int(orelse)
     if then.sort == BOOL:
         if is_true(then) and is_false(orelse):
@@ -257,6 +275,17 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
 
 
 def arith(op: str, left: Term, right: Term) -> Term:
+    if STR in (left.sort, right.sort):
+        # Only concatenation: str * int is the "repeat" op.
+        if op != "+" or left.sort != STR or right.sort != STR:
+            raise TypeError("str arithmetic is concatenation of two strs")
+        if isinstance(left, Const) and isinstance(right, Const):
+            return Const(left.value + right.value, STR)
+        if isinstance(left, Const) and left.value == "":
+            return right
+        if isinstance(right, Const) and right.value == "":
+            return left
+        return Arith(op, left, right, STR)
     if left.sort == FLOAT or right.sort == FLOAT:
         # IEEE arithmetic: no algebraic folding (x + 0.0 is not x for x = -0.0).
         if left.sort != FLOAT or right.sort != FLOAT:
@@ -309,7 +338,12 @@ def neg(a: Term) -> Term:
 
 
 def cmp(op: str, left: Term, right: Term) -> Term:
-    if FLOAT in (left.sort, right.sort):
+    if STR in (left.sort, right.sort):
+        # Strings compare with strings only; the translator settles the rest
+        # (== is False, < raises TypeError) before building a comparison.
+        if left.sort != right.sort:
+            raise TypeError("a str compares with a str")
+    elif FLOAT in (left.sort, right.sort):
         # Floats compare with ints exactly (not by converting the int), and a
         # bool is the int 0 or 1; NaN makes every comparison but != false.
         left = left if left.sort == FLOAT else as_int(left)
@@ -365,6 +399,27 @@ Value = Union[Term, Tup, NoneValue]
 
 def render_value(v: Value) -> str:
     return repr(v) if not isinstance(v, Term) else render(v)
+
+
+def truth(v: Value) -> Term:
+    """Python's truth value of ``v``."""
+    if isinstance(v, Tup):
+        return const(bool(v.items))
+    if v is NONE:
+        return FALSE
+    if v.sort == BOOL:
+        return v
+    if v.sort == FLOAT:
+        return cmp("!=", v, const(0.0))  # false only for ±0.0; NaN is true
+    if v.sort == STR:
+        return cmp(">", str_len(v), const(0))  # only "" is false
+    return cmp("!=", v, const(0))
+
+
+def str_len(s: Term) -> Term:
+    if isinstance(s, Const):
+        return const(len(s.value))
+    return op("len", s, sort=INT)
 
 
 # ---------------------------------------------------------------- behaviours
@@ -482,13 +537,22 @@ def _render_node(t: Term, memo: dict):
             return _float_text(t.value)
         if t.sort == INT and t.value < 0:
             return repr(t.value), _PREC["neg"]
+        if t.sort == STR:
+            return repr(t.value), _PREC["atom"]
         return repr(t.value), _PREC["atom"]
     if isinstance(t, Op):
         p = _OP_PREC.get(t.name, _PREC["atom"])
-        if p == _PREC["atom"]:
+        if t.name in _SUBJECT_OPS:
+            args = [_render(t.args[0], _PREC["atom"], memo)] + [
+                _render(a, 0, memo) for a in t.args[1:]]
+        elif p == _PREC["atom"]:
             args = [_render(a, 0, memo) for a in t.args]
+        elif p == _PREC["cmp"]:  # comparisons do not associate: `(a in b) in c`
+            args = [_render(a, p + 1, memo) for a in t.args]
         else:  # infix: left-associative, like Arith
             args = [_render(a, p + (i > 0), memo) for i, a in enumerate(t.args)]
+        if t.name in _METHODS:
+            return f"{args[0]}.{t.name}({', '.join(args[1:])})", _PREC["atom"]
         return OP_TEMPLATES[t.name].format(*args), p
     if isinstance(t, Arith):
         p = _PREC[t.op]

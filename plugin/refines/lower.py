@@ -11,7 +11,7 @@ from typing import Dict
 
 import z3
 
-from refines import fpmath, ir
+from refines import fpmath, ir, strmath
 
 # How each ir.Op lowers: a function of the context and the lowered arguments.
 OPS = {
@@ -28,7 +28,23 @@ OPS = {
     "trunc": lambda ctx, a: fpmath.trunc_to_int(a, ctx)[0],
     "floor": lambda ctx, a: fpmath.floor_to_int(a, ctx)[0],
     "ceil": lambda ctx, a: fpmath.ceil_to_int(a, ctx)[0],
+    # str
+    "len": lambda ctx, s: strmath.length(s, ctx),
+    "getitem": lambda ctx, s, i: strmath.getitem(s, i, ctx),
+    "slice": lambda ctx, s, a, b: strmath.slice_(s, a, b, ctx),
+    "slice_from": lambda ctx, s, a: strmath.slice_(s, a, None, ctx),
+    "slice_to": lambda ctx, s, b: strmath.slice_(s, None, b, ctx),
+    "contains": lambda ctx, needle, hay: strmath.contains(hay, needle, ctx),
+    "startswith": lambda ctx, s, p: strmath.startswith(s, p, ctx),
+    "endswith": lambda ctx, s, p: strmath.endswith(s, p, ctx),
+    "repeat": lambda ctx, s, n: strmath.repeat(s, n, ctx),
+    "replace": lambda ctx, s, old, new: strmath.replace(s, old, new, ctx),
+    "str_of_int": lambda ctx, n: strmath.of_int(n, ctx),
 }
+
+
+# Ops lowered to a fresh constant plus a definition of it (see ``definitions``).
+_DEFINED = {"find", "rfind"}
 _FLOAT_ARITH = {"+": fpmath.add, "-": fpmath.sub, "*": fpmath.mul, "/": fpmath.div,
                 "//": fpmath.floordiv, "%": fpmath.mod}
 
@@ -41,6 +57,10 @@ class Lowering:
         self._memo: Dict[int, z3.ExprRef] = {}
         self._keep: list = []  # keeps memoised terms alive so ids stay unique
         self.vars: Dict[str, z3.ExprRef] = {}
+        # Definitions of the fresh constants some ops lower to. Each pins its
+        # constant to one value for every pre-state, so adding all of them to
+        # every query changes no answer; a query must include them.
+        self.definitions: list = []
 
     def var(self, name: str, sort: str) -> z3.ExprRef:
         key = f"{name}:{sort}"
@@ -49,6 +69,8 @@ class Lowering:
                 self.vars[key] = z3.Int(name, self.ctx)
             elif sort == ir.FLOAT:
                 self.vars[key] = z3.FP(name, fpmath.sort(self.ctx))
+            elif sort == ir.STR:
+                self.vars[key] = z3.String(name, self.ctx)
             else:
                 self.vars[key] = z3.Bool(name, self.ctx)
         return self.vars[key]
@@ -80,13 +102,27 @@ class Lowering:
                 return z3.BoolVal(bool(t.value), ctx)
             if t.sort == ir.FLOAT:
                 return fpmath.const(float(t.value), ctx)
+            if t.sort == ir.STR:
+                return strmath.const(t.value, ctx)
             return z3.IntVal(int(t.value), ctx)
+        if isinstance(t, ir.Op) and t.name in _DEFINED:
+            args = [m[id(a)] for a in t.args]
+            s, sub, window = args[0], args[1], args[2:] + [None] * (4 - len(args))
+            fresh = z3.Int(f"{t.name}!{len(self.definitions)}", ctx)
+            value, definition = strmath.find(s, sub, window[0], window[1], ctx, fresh,
+                                             last=t.name == "rfind")
+            self.definitions.append(definition)
+            return value
         if isinstance(t, ir.Op):
             return OPS[t.name](ctx, *[m[id(a)] for a in t.args])
         if isinstance(t, ir.Arith) and t.sort == ir.FLOAT:
             return _FLOAT_ARITH[t.op](m[id(t.left)], m[id(t.right)], ctx)
         if isinstance(t, ir.Neg) and t.sort == ir.FLOAT:
             return fpmath.neg(m[id(t.arg)], ctx)
+        if isinstance(t, ir.Arith) and t.sort == ir.STR:
+            return z3.Concat(m[id(t.left)], m[id(t.right)])
+        if isinstance(t, ir.Cmp) and t.left.sort == ir.STR:
+            return strmath.compare(t.op, m[id(t.left)], m[id(t.right)])
         if isinstance(t, ir.Cmp) and ir.FLOAT in (t.left.sort, t.right.sort):
             a, b = m[id(t.left)], m[id(t.right)]
             if t.left.sort == ir.FLOAT and t.right.sort == ir.FLOAT:

@@ -407,16 +407,15 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
     not_target = ir.not_(target)
     for i, cube in enumerate(cubes):
         lits = list(cube)
-        j = 0
-        while j < len(lits):
-            # Weaken the cube by dropping a literal while it still implies
-            # the target; that also drops literals the context implies.
-            trial = lits[:j] + lits[j + 1:]
+        # Weaken the cube by dropping a literal while it still implies the
+        # target; that also drops literals the context implies. The largest
+        # literals go first: `len(s[0]) == 1` implies `len(s) > 0` in the
+        # model, but only the latter is safe to print (s[0] raises on "").
+        for lit in sorted(cube, key=ir.printed_size, reverse=True):
+            trial = [x for x in lits if x is not lit]
             status, _, _ = solver.check(context, *trial, not_target)
             if status == z3.unsat:
                 lits = trial
-            else:
-                j += 1
         cubes[i] = lits
     result: List[Cube] = []
     for i, cube in enumerate(cubes):
@@ -435,8 +434,10 @@ def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],
     parameter -- a comparison with a constant, or for a float ``not
     math.isnan(x)`` and the like -- when the solver shows the two agree under
     ``context`` (``0 <= x % y < y`` is ``y > 0``)."""
-    if not force and (len(cube) < 2 or not any(_nonlinear(lit) for lit in cube)):
+    if not force and not any(_nonlinear(lit) for lit in cube):
         return cube
+    if not force and len(cube) < 2 and ir.printed_size(cube[0]) <= 5:
+        return cube  # already as simple as a candidate
     whole = ir.and_(*cube)
     for candidate in _candidates(params, target):
         status, _, _ = solver.check(context, ir.not_(ir.cmp("==", whole, candidate)))
@@ -461,6 +462,11 @@ def _candidates(params: Sequence[ir.Var], target: ir.Term):
         elif p.sort == ir.BOOL:
             yield p
             yield ir.Not(p)
+        elif p.sort == ir.STR:
+            length = ir.str_len(p)
+            for c in (c for c in ints if c >= 0):
+                for op in (">", ">=", "<", "<=", "==", "!="):
+                    yield ir.Cmp(op, length, ir.const(c))
 
 
 def _nonlinear(t: ir.Term) -> bool:

@@ -20,7 +20,7 @@ from typing import Any, Callable
 
 import z3
 
-from refines import fpmath, ir, precondition, replay
+from refines import fpmath, ir, precondition, replay, solve, strmath
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering
 from refines.obligation import Spec, translate_spec_for, violations
@@ -58,24 +58,19 @@ class Solver:
         self.ctx = z3.Context()
         self.lower = Lowering(self.ctx)
         self.budget = budget
+        # Which engine answers each query (z3 alone, or a portfolio for float
+        # queries): solve.py. Every query spends from the one budget.
+        self.runner = solve.Runner(self.ctx, budget, RLIMIT_PER_SECOND)
 
     def check(self, *terms: ir.Term):
-        """``(status, model, why unknown)`` for the conjunction of ``terms``."""
-        remaining = self.budget.remaining()
-        if remaining <= 0 or self.budget.units <= 0:
+        """``(status, model, why unknown)`` for the conjunction of ``terms``.
+
+        A sat answer always comes with a z3 model in ``self.ctx``."""
+        if self.budget.remaining() <= 0 or self.budget.units <= 0:
             return z3.unknown, None, "the solver budget ran out"
-        s = z3.Solver(ctx=self.ctx)
-        s.set("timeout", max(1, int(remaining * 1000)))
-        s.set("rlimit", self.budget.units)
-        s.add(*[self.lower(t) for t in terms])
-        status = s.check()
-        # Each query spends from the obligation's one budget of units.
-        self.budget.units -= _rlimit_spent(s)
-        if status == z3.sat:
-            return status, s.model(), None
-        if status == z3.unknown:
-            return status, None, s.reason_unknown()
-        return status, None, None
+        assertions = [self.lower(t) for t in terms]
+        assertions += self.lower.definitions  # of fresh constants (lower.Lowering)
+        return self.runner.check(assertions)
 
     def value(self, model: z3.ModelRef, v: ir.Value) -> Any:
         """The Python value of ``v`` in ``model``."""
@@ -85,6 +80,8 @@ class Solver:
             return None
         if v.sort == ir.FLOAT:
             return fpmath.read(model, self.lower(v))
+        if v.sort == ir.STR:
+            return strmath.read(model, self.lower(v))
         z = model.eval(self.lower(v), model_completion=True)
         if v.sort == ir.BOOL:
             return z3.is_true(z)
@@ -157,8 +154,15 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         return result
     if status == z3.unknown:
         result.verdict = UNKNOWN
-        result.reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
-        result.hint = "raise --refines-timeout, or split the function"
+        if "incomplete" in (why or ""):
+            # Not a matter of time: the solver's procedure stops short of an
+            # answer for this formula (e.g. str.replace over strings of any length).
+            result.reason = f"the solver gave up without an answer ({why})"
+            result.hint = ("a longer budget will not help; bound the inputs in assuming=, "
+                           "or leave this claim to tests")
+        else:
+            result.reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
+            result.hint = "raise --refines-timeout, or split the function"
         return result
 
     inputs = {p.name: solver.value(model, p) for p in ob.params}

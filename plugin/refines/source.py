@@ -20,7 +20,7 @@ from refines import ir
 from refines.declare import SPECS_ATTRIBUTE, Spec, refines
 from refines.errors import SpecError, Untranslatable
 
-_SORTS = {int: ir.INT, bool: ir.BOOL, float: ir.FLOAT}
+_SORTS = {int: ir.INT, bool: ir.BOOL, float: ir.FLOAT, str: ir.STR}
 
 
 @dataclass(frozen=True)

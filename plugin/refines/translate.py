@@ -27,13 +27,15 @@ from __future__ import annotations
 
 import builtins
 import math
+import types
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Sequence, Tuple
 
 import astroid
 from astroid import nodes
 
-from refines import ir
+from refines import ir, strmath
+from refines.calls import _CALLS, STR_METHODS, Calls
 from refines.errors import SpecError, Untranslatable
 
 # Python statement keywords for the node kinds we do not translate yet.
@@ -80,7 +82,12 @@ def shape(v: ir.Value) -> str:
         return "tuple(" + ", ".join(shape(i) for i in v.items) + ")"
     if v is ir.NONE:
         return "None"
-    return "float" if v.sort == ir.FLOAT else "int/bool"
+    return {ir.FLOAT: "float", ir.STR: "str"}.get(v.sort, "int/bool")
+
+
+def _kind(t: ir.Term) -> str:
+    """Terms of one kind merge into one if-then-else (bool and int do)."""
+    return t.sort if t.sort in (ir.FLOAT, ir.STR) else ir.INT
 
 
 def merge(cond: ir.Term, a, b):
@@ -102,8 +109,8 @@ def merge(cond: ir.Term, a, b):
             return MaybeUnbound(av, bound)
         return MaybeUnbound(merge(cond, av, bv), bound)
     if isinstance(a, ir.Term) and isinstance(b, ir.Term):
-        if (a.sort == ir.FLOAT) != (b.sort == ir.FLOAT):
-            return Conflict(f"{shape(a)} and {shape(b)}")  # int or float: not modelled
+        if _kind(a) != _kind(b):
+            return Conflict(f"{shape(a)} and {shape(b)}")  # e.g. int or float: not modelled
         return ir.ite(cond, a, b)
     if isinstance(a, ir.Tup) and isinstance(b, ir.Tup) and len(a.items) == len(b.items):
         items = tuple(merge(cond, x, y) for x, y in zip(a.items, b.items))
@@ -115,17 +122,17 @@ def merge(cond: ir.Term, a, b):
     return Conflict(f"{shape(a)} and {shape(b)}")
 
 
-def truthy(v: ir.Value) -> ir.Term:
-    """Python's truth value of ``v``."""
-    if isinstance(v, ir.Tup):
-        return ir.const(bool(v.items))
-    if v is ir.NONE:
-        return ir.FALSE
-    if v.sort == ir.BOOL:
-        return v
-    if v.sort == ir.FLOAT:
-        return ir.cmp("!=", v, ir.const(0.0))  # false only for ±0.0; NaN is true
-    return ir.cmp("!=", v, ir.const(0))
+truthy = ir.truth
+str_len = ir.str_len
+
+
+def str_const(text: str, line: int) -> ir.Term:
+    """A string constant; code points from the top of the solver's alphabet
+    up are refused, since the model could not tell inputs apart from them."""
+    if any(ord(ch) > strmath.MAX_CONSTANT_CODE_POINT for ch in text):
+        raise Untranslatable("value", line, {
+            "construct": repr(text), "type": "str with code points above U+1FFFF"})
+    return ir.const(text)
 
 
 class Scope:
@@ -148,10 +155,12 @@ class Scope:
             raise Untranslatable("name", line, {"name": name})
         # Python's bool is an int subclass; both are modelled exactly, as are floats.
         # Keyed by the object: two names bound to one NaN are one object.
-        if isinstance(value, (bool, int, float)):
+        if isinstance(value, (bool, int, float, str)):
             if id(value) not in self._constants:
-                self._constants[id(value)] = (ir.const(value) if not isinstance(value, float)
-                                              else ir.Const(value, ir.FLOAT))
+                self._constants[id(value)] = (
+                    str_const(value, line) if isinstance(value, str)
+                    else ir.Const(value, ir.FLOAT) if isinstance(value, float)
+                    else ir.const(value))
             return self._constants[id(value)]
         if value is None:
             return ir.NONE
@@ -172,6 +181,16 @@ class Scope:
             obj = getattr(obj, attr, None)
         return obj
 
+    def is_namespace(self, node: nodes.NodeNG) -> bool:
+        """Whether ``node`` names a module or a class (``math``, ``os.path``),
+        whose attributes are looked up, rather than a value whose methods are."""
+        while isinstance(node, nodes.Attribute):
+            node = node.expr
+        if not isinstance(node, nodes.Name) or node.name in self.function_locals:
+            return False
+        obj = self.globals.get(node.name, getattr(builtins, node.name, None))
+        return isinstance(obj, (type, types.ModuleType))
+
     def is_old(self, func: nodes.NodeNG) -> bool:
         """Whether ``func`` names ``refines.old`` (by name or as ``refines.old``)."""
         from refines.declare import old
@@ -190,7 +209,7 @@ class Scope:
                 and self.globals.get(name, getattr(builtins, name, None)) is fn)
 
 
-class Translator:
+class Translator(Calls):
     """Symbolic execution of one body or spec expression."""
 
     def __init__(self, scope: Scope, env: Dict[str, ir.Value],
@@ -382,6 +401,8 @@ class Translator:
             return ir.NONE
         if isinstance(node.value, (bool, int, float)):
             return ir.const(node.value)
+        if isinstance(node.value, str):
+            return str_const(node.value, node.lineno)
         return self.refuse("value", node.lineno,
                              {"construct": node.as_string(),
                               "type": type(node.value).__name__})
@@ -416,6 +437,10 @@ class Translator:
         if node.op == "not":
             return ir.not_(truthy(operand))
         operand = self.scalar(operand, node, node.op)
+        if operand.sort == ir.STR:
+            self.raise_when(ir.TRUE, TypeError, node.lineno,
+                            f"bad operand type for unary {node.op}: 'str'")
+            return ir.const(0)
         if node.op == "-":
             return ir.neg(operand)
         if node.op == "+":
@@ -439,6 +464,8 @@ class Translator:
             return self.tuple_binop(op, left, right, node)
         left = self.scalar(left, node, op)
         right = self.scalar(right, node, op)
+        if ir.STR in (left.sort, right.sort):
+            return self.str_binop(op, left, right, node)
         if ir.FLOAT in (left.sort, right.sort):
             return self.float_binop(op, left, right, node)
         if op == "/":
@@ -544,6 +571,26 @@ class Translator:
             "op": op, "types": "tuples",
             "hint": "tuples support + with a tuple and * by a constant int"})
 
+    def str_binop(self, op: str, left: ir.Term, right: ir.Term, node) -> ir.Term:
+        if op == "+" and left.sort == right.sort:
+            return ir.arith("+", left, right)
+        if op == "*" and ir.FLOAT not in (left.sort, right.sort) and left.sort != right.sort:
+            s, n = (left, right) if left.sort == ir.STR else (right, left)
+            n = ir.as_int(n)
+            if isinstance(s, ir.Const) and isinstance(n, ir.Const):
+                if len(s.value) * max(n.value, 0) > 10_000:
+                    return self.refuse("value", node.lineno, {
+                        "construct": node.as_string(), "type": "str longer than 10,000"})
+                return ir.const(s.value * max(int(n.value), 0))
+            return ir.op("repeat", s, n, sort=ir.STR)
+        if op == "%" and left.sort == ir.STR:
+            return self.refuse("operator", node.lineno, {
+                "op": op, "types": "str", "hint": "printf-style formatting is not modelled"})
+        kinds = " and ".join(f"'{'int' if t.sort == ir.BOOL else t.sort}'" for t in (left, right))
+        self.raise_when(ir.TRUE, TypeError, node.lineno,
+                        f"unsupported operand types for {op}: {kinds}")
+        return ir.const("")
+
     def scalar(self, v: ir.Value, node: nodes.NodeNG, op: str) -> ir.Term:
         if isinstance(v, ir.Term):
             return v
@@ -613,13 +660,22 @@ class Translator:
             if same is not None:
                 return same if op == "is" else ir.not_(same)
             return self.refuse("operator", node.lineno, {
-                "op": op, "types": "ints",
-                "hint": "`is` between ints depends on object identity; use =="})
+                "op": op, "types": "numbers or strs",
+                "hint": "`is` between them depends on object identity; use =="})
         if op in ("in", "not in"):
+            if isinstance(b, ir.Term) and b.sort == ir.STR:
+                if not (isinstance(a, ir.Term) and a.sort == ir.STR):
+                    self.raise_when(ir.TRUE, TypeError, node.lineno,
+                                    "'in <string>' requires string as left operand")
+                    return ir.FALSE
+                found = (ir.const(a.value in b.value)
+                         if isinstance(a, ir.Const) and isinstance(b, ir.Const)
+                         else ir.op("contains", a, b, sort=ir.BOOL))
+                return found if op == "in" else ir.not_(found)
             if not isinstance(b, ir.Tup):
                 return self.refuse("operator", node.lineno, {
                     "op": op, "types": "this right-hand side",
-                    "hint": "`in` is modelled for tuples"})
+                    "hint": "`in` is modelled for tuples and strs"})
             found = ir.or_(*(self.equal(a, item, True) for item in b.items))
             return found if op == "in" else ir.not_(found)
         if op in ("==", "!="):
@@ -627,7 +683,14 @@ class Translator:
             return same if op == "==" else ir.not_(same)
         if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
             return self.lexicographic(op, list(a.items), list(b.items), node)
-        return ir.cmp(op, self.scalar(a, node, op), self.scalar(b, node, op))
+        a, b = self.scalar(a, node, op), self.scalar(b, node, op)
+        if (a.sort == ir.STR) != (b.sort == ir.STR):
+            # Ordering a str against a number raises (Language Reference,
+            # "Value comparisons"); the value returned is never used.
+            self.raise_when(ir.TRUE, TypeError, node.lineno,
+                            f"'{op}' not supported between a str and a number")
+            return ir.FALSE
+        return ir.cmp(op, a, b)
 
     @staticmethod
     def identical_bools(a: ir.Value, b: ir.Value) -> Optional[ir.Term]:
@@ -636,7 +699,8 @@ class Translator:
         when it cannot be decided (an int-sorted term may hold a bool)."""
         for x, y in ((a, b), (b, a)):
             if isinstance(y, ir.Const) and y.sort == ir.BOOL:
-                if isinstance(x, ir.Tup) or (isinstance(x, ir.Term) and x.sort == ir.FLOAT):
+                if isinstance(x, ir.Tup) or (isinstance(x, ir.Term)
+                                             and x.sort in (ir.FLOAT, ir.STR)):
                     return ir.FALSE
                 if isinstance(x, ir.Term) and x.sort == ir.BOOL:
                     return ir.cmp("==", x, y)
@@ -646,6 +710,8 @@ class Translator:
         """``a == b``; ``item`` for the items of tuples and ``in``, which Python
         compares by identity first (a NaN object equals itself there)."""
         if isinstance(a, ir.Term) and isinstance(b, ir.Term):
+            if (a.sort == ir.STR) != (b.sort == ir.STR):
+                return ir.FALSE  # a str never equals a number
             if item and ir.FLOAT in (a.sort, b.sort):
                 return ir.or_(same_object(a, b), ir.cmp("==", a, b))
             return ir.cmp("==", a, b)
@@ -671,6 +737,8 @@ class Translator:
 
     def expr_Subscript(self, node: nodes.Subscript) -> ir.Value:
         container = self.expr(node.value)
+        if isinstance(container, ir.Term) and container.sort == ir.STR:
+            return self.str_subscript(container, node)
         if not isinstance(container, ir.Tup):
             return self.refuse("expression", node.lineno,
                                  {"construct": "subscript of a non-tuple"})
@@ -690,9 +758,9 @@ class Translator:
                 return ir.Tup(())
             return ir.Tup(container.items[slice(*bounds)])
         index = self.scalar(self.expr(node.slice), node, "[]")
-        if index.sort == ir.FLOAT:
+        if index.sort in (ir.FLOAT, ir.STR):
             self.raise_when(ir.TRUE, TypeError, node.lineno,
-                            "tuple indices must be integers or slices, not float")
+                            f"tuple indices must be integers or slices, not {index.sort}")
             return ir.const(0)
         n = len(container.items)
         if isinstance(index, ir.Const):
@@ -712,6 +780,59 @@ class Translator:
                                  {"construct": node.as_string(), "shapes": value.shapes})
         return value
 
+    def str_subscript(self, s: ir.Term, node: nodes.Subscript) -> ir.Value:
+        # Language Reference, "Subscriptions" and "Slicings"; str documentation,
+        # "Common Sequence Operations" (notes 3 and 4 on negative and clamped bounds).
+        if isinstance(node.slice, nodes.Slice):
+            # All three parts are evaluated before the slice is applied.
+            parts = [None if p is None else self.expr(p)
+                     for p in (node.slice.lower, node.slice.upper, node.slice.step)]
+            parts = [None if p is ir.NONE else p for p in parts]
+            if any(p is not None and not (isinstance(p, ir.Term)
+                                          and p.sort in (ir.INT, ir.BOOL)) for p in parts):
+                self.raise_when(ir.TRUE, TypeError, node.lineno,
+                                "slice indices must be integers or None")
+                return ir.const("")
+            lower, upper, step = [None if p is None else ir.as_int(p) for p in parts]
+            if step is not None:
+                if not isinstance(step, ir.Const):
+                    return self.refuse("expression", node.lineno,
+                                       {"construct": "str slice with a variable step"})
+                if step.value == 0:
+                    self.raise_when(ir.TRUE, ValueError, node.lineno,
+                                    "slice step cannot be zero")
+                    return ir.const("")
+                if step.value != 1:
+                    if isinstance(s, ir.Const) and all(
+                            isinstance(b, (ir.Const, type(None))) for b in (lower, upper)):
+                        return ir.const(s.value[slice(
+                            *[None if b is None else b.value for b in (lower, upper, step)])])
+                    return self.refuse("expression", node.lineno,
+                                       {"construct": "str slice with a step other than 1"})
+            if isinstance(s, ir.Const) and all(isinstance(b, (ir.Const, type(None)))
+                                               for b in (lower, upper)):
+                return ir.const(s.value[None if lower is None else lower.value:
+                                        None if upper is None else upper.value])
+            if lower is None and upper is None:
+                return s
+            if lower is None:
+                return ir.op("slice_to", s, upper, sort=ir.STR)
+            if upper is None:
+                return ir.op("slice_from", s, lower, sort=ir.STR)
+            return ir.op("slice", s, lower, upper, sort=ir.STR)
+        index = self.expr(node.slice)
+        if not (isinstance(index, ir.Term) and index.sort in (ir.INT, ir.BOOL)):
+            self.raise_when(ir.TRUE, TypeError, node.lineno, "string indices must be integers")
+            return ir.const("")
+        index = ir.as_int(index)
+        n = str_len(s)
+        self.raise_when(ir.not_(ir.and_(ir.cmp(">=", index, ir.neg(n)), ir.cmp("<", index, n))),
+                        IndexError, node.lineno, "string index out of range")
+        if isinstance(s, ir.Const) and isinstance(index, ir.Const):
+            in_range = -len(s.value) <= index.value < len(s.value)
+            return ir.const(s.value[index.value] if in_range else "")
+        return ir.op("getitem", s, index, sort=ir.STR)
+
     def expr_Call(self, node: nodes.Call) -> ir.Value:
         func = node.func
         if self.scope.is_old(func):
@@ -725,6 +846,18 @@ class Translator:
             return value
         if node.keywords or any(isinstance(a, nodes.Starred) for a in node.args):
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
+        if isinstance(func, nodes.Attribute) and self.is_value(func.expr):
+            subject = self.expr(func.expr)
+            args = [self.expr(a) for a in node.args]
+            result = None
+            if isinstance(subject, ir.Term) and subject.sort == ir.STR:
+                result = self.str_method(func.attrname, subject, args, node)
+                if result is None:
+                    return self.refuse("method", node.lineno, {
+                        "method": "str." + func.attrname, "allowed": ", ".join(STR_METHODS)})
+            if result is not None:
+                return result
+            return self.refuse("call", node.lineno, {"callee": func.as_string()})
         handler = _CALLS.get(id(self.scope.resolve(func)))
         if handler is not None:
             method, fn_name = handler
@@ -737,107 +870,14 @@ class Translator:
                 return result
         return self.refuse("call", node.lineno, {"callee": func.as_string()})
 
-    def call_abs(self, name, args, node):
-        if len(args) == 1 and isinstance(args[0], ir.Term):
-            if args[0].sort == ir.FLOAT:
-                return ir.op("fabs", args[0], sort=ir.FLOAT)  # abs(-0.0) is 0.0
-            x = ir.as_int(args[0])
-            return ir.ite(ir.cmp("<", x, ir.const(0)), ir.neg(x), x)
-        return None
-
-    def call_minmax(self, name, args, node):
-        if len(args) == 1 and isinstance(args[0], ir.Tup):
-            args = list(args[0].items)  # min((a, b, c)) is min(a, b, c)
-            if not args:
-                self.raise_when(ir.TRUE, ValueError, node.lineno,
-                                f"{name}() of an empty sequence")
-                return ir.const(0)
-            if len(args) == 1 and isinstance(args[0], ir.Term):
-                return args[0]
-        elif len(args) == 1 and isinstance(args[0], ir.Term):
-            # max(5): an int is not iterable
-            self.raise_when(ir.TRUE, TypeError, node.lineno,
-                            f"{name}() of a single int: an int is not iterable")
-            return ir.const(0)
-        if len(args) < 2 or not all(isinstance(a, ir.Term) for a in args):
-            return None
-        # CPython keeps the first extreme item: replace only on strict improvement.
-        op = "<" if name == "min" else ">"
-        if len({a.sort == ir.FLOAT for a in args}) > 1:
-            return self.refuse("mixed", node.lineno, {
-                "construct": node.as_string(), "shapes": "int and float"})
-        best = args[0]
-        for a in args[1:]:
-            best = ir.ite(ir.cmp(op, a, best), a, best)
-        return best
-
-    def call_int(self, name, args, node):
-        if len(args) == 1 and isinstance(args[0], ir.Term):
-            if args[0].sort == ir.FLOAT:
-                return self.float_to_int("trunc", args[0], node)
-            return ir.as_int(args[0])
-        return None
-
-    def float_to_int(self, how: str, x: ir.Term, node) -> ir.Term:
-        """int(x), math.floor(x), math.ceil(x) for a float: an int, or an error."""
-        self.raise_when(ir.op("isinf", x, sort=ir.BOOL), OverflowError, node.lineno,
-                        "cannot convert float infinity to integer")
-        self.raise_when(ir.op("isnan", x, sort=ir.BOOL), ValueError, node.lineno,
-                        "cannot convert float NaN to integer")
-        return ir.op(how, x, sort=ir.INT)
-
-    def call_float(self, name, args, node):
-        if not args:
-            return ir.const(0.0)
-        if len(args) != 1:
-            return None
-        if isinstance(args[0], ir.Term):
-            return self.to_float(args[0], node.lineno)
-        return None
-
-    def float_of_text(self, text: str, node) -> ir.Term:
-        """float("nan"), float("inf"), float("1e-3"): a constant, as Python parses it."""
-        try:
-            return ir.Const(float(text), ir.FLOAT)
-        except ValueError:
-            self.raise_when(ir.TRUE, ValueError, node.lineno,
-                            f"could not convert string to float: {text!r}")
-            return ir.const(0.0)
-
-    def call_math(self, name, args, node):
-        """The math functions modelled (``math`` module documentation)."""
-        if not all(isinstance(a, ir.Term) for a in args):
-            return None
-        arity = 2 if name == "copysign" else 1
-        if len(args) != arity:
-            return None
-        if name in ("floor", "ceil"):
-            x = args[0]
-            if x.sort != ir.FLOAT:
-                return ir.as_int(x)  # math.floor(7) is 7: ints are not converted
-            return self.float_to_int(name, x, node)
-        xs = [self.to_float(a, node.lineno) for a in args]  # ints are converted first
-        if name in ("isnan", "isinf", "isfinite"):
-            return ir.op(name, xs[0], sort=ir.BOOL)
-        if name == "sqrt":
-            self.raise_when(ir.cmp("<", xs[0], ir.const(0.0)), ValueError, node.lineno,
-                            "math domain error")
-        if name == "copysign":
-            # CPython reads the sign bit of a NaN (-float('nan') is negative);
-            # the solver's NaN has no sign.
-            self.unmodelled_when(ir.op("isnan", xs[1], sort=ir.BOOL), node.lineno,
-                                 "math.copysign with a NaN second argument (the sign "
-                                 "bit of a NaN is not modelled)")
-        return ir.op(name, *xs, sort=ir.FLOAT)
-
-    def call_bool(self, name, args, node):
-        if len(args) == 1:
-            return truthy(args[0])
-        if not args:
-            return ir.FALSE
-        return None
-
     # ------------------------------------------------------------ helpers
+
+    def is_value(self, node: nodes.NodeNG) -> bool:
+        """Whether a method's subject is a value (``name.find``) rather than a
+        namespace (``math.sqrt``)."""
+        if isinstance(node, nodes.Name) and node.name in self.env:
+            return True
+        return not self.scope.is_namespace(node)
 
     def exception_class(self, node: nodes.NodeNG) -> type:
         """The exception class a ``raise`` names, looked up as Python would."""
@@ -909,16 +949,6 @@ def same_object(a: ir.Term, b: ir.Term) -> ir.Term:
     if isinstance(b, ir.Ite):
         return ir.ite(b.cond, same_object(a, b.then), same_object(a, b.orelse))
     return ir.FALSE
-
-
-# Callees modelled, by the identity of the object the name resolves to.
-_CALLS = {id(fn): (method, name) for fn, method, name in (
-    (abs, "call_abs", "abs"), (min, "call_minmax", "min"), (max, "call_minmax", "max"),
-    (int, "call_int", "int"), (bool, "call_bool", "bool"), (float, "call_float", "float"),
-    (math.isnan, "call_math", "isnan"), (math.isinf, "call_math", "isinf"),
-    (math.isfinite, "call_math", "isfinite"), (math.fabs, "call_math", "fabs"),
-    (math.sqrt, "call_math", "sqrt"), (math.floor, "call_math", "floor"),
-    (math.ceil, "call_math", "ceil"), (math.copysign, "call_math", "copysign"))}
 
 
 # ---------------------------------------------------------------- entry points
