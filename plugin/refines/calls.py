@@ -143,6 +143,9 @@ class Calls:
         (v,) = args
         if v is ir.NONE:
             return ir.const("None")
+        if isinstance(v, ir.Opt):
+            text = self.call_str(name, [v.value], node)
+            return None if text is None else ir.ite(v.none, ir.const("None"), text)
         if not isinstance(v, ir.Term) or v.sort == ir.FLOAT:
             return None  # the repr of floats and tuples is not modelled
         if v.sort == ir.STR:

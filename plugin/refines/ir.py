@@ -18,6 +18,7 @@ change the meaning of a term.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 from typing import Optional, Tuple, Union
 
@@ -53,6 +54,7 @@ class Term:
 class Var(Term):
     name: str
     sort: str
+    optional: bool = False  # a parameter hinted Optional[...]: see ``initial``
 
 
 @dataclass(frozen=True, repr=False, eq=False)
@@ -394,15 +396,43 @@ class NoneValue:
 
 NONE = NoneValue()
 
-Value = Union[Term, Tup, NoneValue]
+@dataclass(frozen=True, eq=False)
+class Opt:
+    """A value that is None where ``none`` holds and ``value`` elsewhere (an
+    ``Optional[int]`` parameter, or a local assigned None on some paths)."""
+
+    none: Term
+    value: Term
+
+    def __repr__(self) -> str:
+        return f"None if {render(self.none)} else {render(self.value)}"
+
+
+Value = Union[Term, Tup, NoneValue, Opt]
 
 
 def render_value(v: Value) -> str:
     return repr(v) if not isinstance(v, Term) else render(v)
 
 
+NONE_SUFFIX = "!none"  # the bool that says an optional parameter is None
+_INITIAL: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def initial(p: Var) -> Value:
+    """The value of parameter ``p`` on entry; for an optional parameter, the
+    same ``Opt`` object every time, so identity (``x is x``) is preserved."""
+    if not p.optional:
+        return p
+    if p not in _INITIAL:
+        _INITIAL[p] = Opt(Var(p.name + NONE_SUFFIX, BOOL), Var(p.name, p.sort))
+    return _INITIAL[p]
+
+
 def truth(v: Value) -> Term:
     """Python's truth value of ``v``."""
+    if isinstance(v, Opt):
+        return and_(not_(v.none), truth(v.value))
     if isinstance(v, Tup):
         return const(bool(v.items))
     if v is NONE:
@@ -531,6 +561,8 @@ def _float_text(value: float):
 
 def _render_node(t: Term, memo: dict):
     if isinstance(t, Var):
+        if t.name.endswith(NONE_SUFFIX):
+            return f"{t.name[:-len(NONE_SUFFIX)]} is None", _PREC["cmp"]
         return t.name, _PREC["atom"]
     if isinstance(t, Const):
         if t.sort == FLOAT:
@@ -566,6 +598,8 @@ def _render_node(t: Term, memo: dict):
         p = _PREC["cmp"]
         return f"{_render(t.left, p + 1, memo)} {t.op} {_render(t.right, p + 1, memo)}", p
     if isinstance(t, Not):
+        if isinstance(t.arg, Var) and t.arg.name.endswith(NONE_SUFFIX):
+            return f"{t.arg.name[:-len(NONE_SUFFIX)]} is not None", _PREC["cmp"]
         return f"not {_render(t.arg, _PREC['not'], memo)}", _PREC["not"]
     if isinstance(t, (And, Or)):
         # and/or are associative: print nested chains flat.

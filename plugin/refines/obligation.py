@@ -41,7 +41,7 @@ class Violation:
 
 def translate_spec_for(ob: Obligation) -> Spec:
     """Translate assuming, raises and relation over the parameters."""
-    pre: Dict[str, ir.Value] = {p.name: p for p in ob.params}
+    pre: Dict[str, ir.Value] = {p.name: ir.initial(p) for p in ob.params}
 
     def read(part: SpecPart, env: Dict[str, ir.Value], old: Optional[dict] = None):
         scope = Scope(part.globals, part.params)
@@ -99,14 +99,21 @@ def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
 
 
 def _shape(v: ir.Value) -> str:
+    """Values of one shape merge into one if-then-else value."""
     if isinstance(v, ir.Tup):
         return "(" + ",".join(_shape(i) for i in v.items) + ")"
-    return "None" if v is ir.NONE else "scalar"
+    if isinstance(v, ir.Opt):
+        return "Optional " + _shape(v.value)
+    if v is ir.NONE:
+        return "None"
+    return v.sort if v.sort in (ir.FLOAT, ir.STR) else "int"
 
 
 def _merge_value(cond: ir.Term, a: ir.Value, b: ir.Value) -> ir.Value:
     if isinstance(a, ir.Tup):
         return ir.Tup(tuple(_merge_value(cond, x, y) for x, y in zip(a.items, b.items)))
+    if isinstance(a, ir.Opt):
+        return ir.Opt(ir.ite(cond, a.none, b.none), ir.ite(cond, a.value, b.value))
     if a is ir.NONE:
         return ir.NONE
     return ir.ite(cond, a, b)

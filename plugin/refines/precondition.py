@@ -129,7 +129,7 @@ def _equivalent(text: str, target: ir.Term, context: ir.Term,
     """Re-read ``text`` with the translator; the solver checks it equals ``target``."""
     try:
         node = parse_expression(text)
-        env = {p.name: p for p in params}
+        env = {p.name: ir.initial(p) for p in params}
         value = translate_spec(node, env, Scope({"math": math}, [p.name for p in params]),
                                "check")
     except (SyntaxError, SpecError, Untranslatable, Exception):  # noqa: BLE001
@@ -450,6 +450,10 @@ def _candidates(params: Sequence[ir.Var], target: ir.Term):
     ints = sorted({c for c in _constants(target) if isinstance(c, int)} | {0, 1, -1},
                   key=lambda c: (abs(c), c))[:6]
     for p in params:
+        if p.optional:
+            none = ir.initial(p).none
+            yield ir.Not(none)
+            yield none
         if p.sort == ir.INT:
             for c in ints:
                 for op in (">", ">=", "<", "<=", "==", "!="):

@@ -78,6 +78,9 @@ class Solver:
             return tuple(self.value(model, i) for i in v.items)
         if v is ir.NONE:
             return None
+        if isinstance(v, ir.Opt):
+            none = z3.is_true(model.eval(self.lower(v.none), model_completion=True))
+            return None if none else self.value(model, v.value)
         if v.sort == ir.FLOAT:
             return fpmath.read(model, self.lower(v))
         if v.sort == ir.STR:
@@ -165,7 +168,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
             result.hint = "raise --refines-timeout, or split the function"
         return result
 
-    inputs = {p.name: solver.value(model, p) for p in ob.params}
+    inputs = {p.name: solver.value(model, ir.initial(p)) for p in ob.params}
     predicted = _predicted(solver, model, behaviour)
     actual = replay.run(ob, inputs)
     judgement = replay.judge(ob, inputs, actual)
@@ -219,7 +222,7 @@ def _unmodelled(ob: Obligation, behaviour: ir.Behaviour, spec, solver: Solver):
             continue
         where = ob.where(ob.path, o.line)
         if status == z3.sat:
-            inputs = {p.name: solver.value(model, p) for p in ob.params}
+            inputs = {p.name: solver.value(model, ir.initial(p)) for p in ob.params}
             return (f"not proved: {o.unmodelled} ({where}) happens for "
                     f"{replay.call_text(ob, inputs)}; every other outcome meets the spec")
         return f"not proved: {o.unmodelled} ({where}) may happen"
@@ -247,7 +250,7 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
         for o in raising:
             status, model, _ = solver.check(context, o.guard)
             if status == z3.sat:
-                inputs = {p.name: solver.value(model, p) for p in ob.params}
+                inputs = {p.name: solver.value(model, ir.initial(p)) for p in ob.params}
                 shown = ", ".join(f"{k}={v!r}" for k, v in inputs.items()
                                   if k in part.params)
                 text, hint = format_message("spec-raising", role=f"`{part.role}`",

@@ -10,6 +10,7 @@ from __future__ import annotations
 import builtins
 import inspect
 import os
+import typing
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Tuple
 
@@ -199,20 +200,70 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
     for arg_nodes, hints, kind in groups:
         for i, arg in enumerate(arg_nodes):
             ann = hints[i] if i < len(hints) else None
-            params.append(ir.Var(arg.name, param_sort(arg.name, ann, globals_, fn_node)))
+            sort, optional = param_type(arg.name, ann, globals_, fn_node)
+            params.append(ir.Var(arg.name, sort, optional))
             kinds.append(kind)
     return tuple(params), tuple(kinds)
 
 
-def param_sort(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node) -> str:
+def param_type(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node):
+    """The sort a parameter's hint names, and whether it may also be None:
+    ``int``, ``Optional[str]``, ``float | None``, ``Union[None, int]``, or the
+    same written as a string."""
     if ann is None:
         raise Untranslatable("param-untyped", fn_node.lineno, {"name": name})
+    node = ann
+    if isinstance(ann, nodes.Const) and isinstance(ann.value, str):
+        try:
+            node = astroid.extract_node(ann.value)
+        except (astroid.AstroidSyntaxError, ValueError):
+            node = None
     text = ann.value if isinstance(ann, nodes.Const) and isinstance(ann.value, str) \
         else ann.as_string()
-    for cls, sort in _SORTS.items():
-        if text == cls.__name__ and globals_.get(text, getattr(builtins, text)) is cls:
-            return sort
-    raise Untranslatable("param-type", ann.lineno, {"name": name, "hint_text": text})
+    found = _hint(node, globals_) if node is not None else None
+    if found is None:
+        raise Untranslatable("param-type", ann.lineno, {"name": name, "hint_text": text})
+    return found
+
+
+def _hint(node: nodes.NodeNG, globals_: dict):
+    """(sort, optional) for a hint node, or None if it is not modelled."""
+    def lookup(n):
+        dotted = []
+        while isinstance(n, nodes.Attribute):
+            dotted.append(n.attrname)
+            n = n.expr
+        if not isinstance(n, nodes.Name):
+            return None
+        obj = globals_.get(n.name, getattr(builtins, n.name, None))
+        for attr in reversed(dotted):
+            obj = getattr(obj, attr, None)
+        return obj
+
+    def is_none(n):
+        return isinstance(n, nodes.Const) and n.value is None
+
+    def plain(n):
+        obj = lookup(n)
+        return _SORTS.get(obj) if isinstance(obj, type) else None
+
+    members = None
+    if isinstance(node, nodes.BinOp) and node.op == "|":
+        members = [node.left, node.right]
+    elif isinstance(node, nodes.Subscript):
+        origin = lookup(node.value)
+        if origin is typing.Optional:
+            members = [node.slice, None]
+        elif origin is typing.Union and isinstance(node.slice, nodes.Tuple):
+            members = list(node.slice.elts)
+    if members is None:
+        sort = plain(node)
+        return None if sort is None else (sort, False)
+    types = [m for m in members if m is not None and not is_none(m)]
+    if len(types) != 1 or len(types) == len(members):
+        return None  # a union of two types, or no None in it
+    sort = plain(types[0])
+    return None if sort is None else (sort, True)
 
 
 def read_part(node: Optional[nodes.NodeNG], runtime: Callable, role: str,

@@ -78,6 +78,8 @@ class Conflict:
 
 
 def shape(v: ir.Value) -> str:
+    if isinstance(v, ir.Opt):
+        return f"Optional[{shape(v.value)}]"
     if isinstance(v, ir.Tup):
         return "tuple(" + ", ".join(shape(i) for i in v.items) + ")"
     if v is ir.NONE:
@@ -108,18 +110,38 @@ def merge(cond: ir.Term, a, b):
         if ir.is_false(bb):
             return MaybeUnbound(av, bound)
         return MaybeUnbound(merge(cond, av, bv), bound)
-    if isinstance(a, ir.Term) and isinstance(b, ir.Term):
-        if _kind(a) != _kind(b):
-            return Conflict(f"{shape(a)} and {shape(b)}")  # e.g. int or float: not modelled
-        return ir.ite(cond, a, b)
+    if a is ir.NONE and b is ir.NONE:
+        return ir.NONE
+    if isinstance(a, (ir.Term, ir.Opt, ir.NoneValue)) and isinstance(b, (ir.Term, ir.Opt, ir.NoneValue)):
+        # None on some paths and a number or str on the others: an Opt.
+        if isinstance(a, ir.Term) and isinstance(b, ir.Term):
+            if _kind(a) != _kind(b):
+                return Conflict(f"{shape(a)} and {shape(b)}")  # e.g. int or float
+            return ir.ite(cond, a, b)
+        an, av = _optional(a)
+        bn, bv = _optional(b)
+        if av is None or bv is None:
+            value = av if bv is None else bv
+        elif _kind(av) != _kind(bv):
+            return Conflict(f"{shape(a)} and {shape(b)}")
+        else:
+            value = ir.ite(cond, av, bv)
+        return ir.Opt(ir.ite(cond, an, bn), value)
     if isinstance(a, ir.Tup) and isinstance(b, ir.Tup) and len(a.items) == len(b.items):
         items = tuple(merge(cond, x, y) for x, y in zip(a.items, b.items))
         if any(isinstance(i, Conflict) for i in items):
             return Conflict(f"{shape(a)} and {shape(b)}")
         return ir.Tup(items)
-    if a is ir.NONE and b is ir.NONE:
-        return ir.NONE
     return Conflict(f"{shape(a)} and {shape(b)}")
+
+
+def _optional(v):
+    """``(is None, value)`` of a scalar that may be None; value None for None."""
+    if v is ir.NONE:
+        return ir.TRUE, None
+    if isinstance(v, ir.Opt):
+        return v.none, v.value
+    return ir.FALSE, v
 
 
 truthy = ir.truth
@@ -594,6 +616,11 @@ class Translator(Calls):
     def scalar(self, v: ir.Value, node: nodes.NodeNG, op: str) -> ir.Term:
         if isinstance(v, ir.Term):
             return v
+        if isinstance(v, ir.Opt):
+            # Where it is None, Python raises TypeError; elsewhere it is a number or str.
+            self.raise_when(v.none, TypeError, node.lineno,
+                            f"`{op}` is not defined for None in Python")
+            return v.value
         # Python raises TypeError for arithmetic or ordering on None, and for
         # mixing a tuple with an int: an outcome like any other. The value
         # returned is never used, since nothing runs after the raise.
@@ -654,7 +681,9 @@ class Translator(Calls):
     def compare(self, op: str, a: ir.Value, b: ir.Value, node) -> ir.Term:
         if op in ("is", "is not"):
             if a is ir.NONE or b is ir.NONE:
-                same = ir.const(a is b)
+                other = b if a is ir.NONE else a
+                same = (other.none if isinstance(other, ir.Opt)
+                        else ir.const(other is ir.NONE))
                 return same if op == "is" else ir.not_(same)
             same = self.identical_bools(a, b)
             if same is not None:
@@ -663,6 +692,8 @@ class Translator(Calls):
                 "op": op, "types": "numbers or strs",
                 "hint": "`is` between them depends on object identity; use =="})
         if op in ("in", "not in"):
+            if isinstance(b, ir.Opt):
+                b = self.scalar(b, node, op)  # `x in None` raises TypeError
             if isinstance(b, ir.Term) and b.sort == ir.STR:
                 if not (isinstance(a, ir.Term) and a.sort == ir.STR):
                     self.raise_when(ir.TRUE, TypeError, node.lineno,
@@ -709,6 +740,17 @@ class Translator(Calls):
     def equal(self, a: ir.Value, b: ir.Value, item: bool = False) -> ir.Term:
         """``a == b``; ``item`` for the items of tuples and ``in``, which Python
         compares by identity first (a NaN object equals itself there)."""
+        if isinstance(a, ir.Opt) or isinstance(b, ir.Opt):
+            # None equals only None; otherwise compare the values.
+            an, av = _optional(a)
+            bn, bv = _optional(b)
+            both_none = ir.and_(an, bn)
+            if av is None or bv is None or not isinstance(av, ir.Term) \
+                    or not isinstance(bv, ir.Term):
+                return both_none if not isinstance(a, ir.Tup) and not isinstance(b, ir.Tup) \
+                    else ir.FALSE
+            return ir.or_(both_none, ir.and_(ir.not_(an), ir.not_(bn),
+                                             self.equal(av, bv, item)))
         if isinstance(a, ir.Term) and isinstance(b, ir.Term):
             if (a.sort == ir.STR) != (b.sort == ir.STR):
                 return ir.FALSE  # a str never equals a number
@@ -737,6 +779,10 @@ class Translator(Calls):
 
     def expr_Subscript(self, node: nodes.Subscript) -> ir.Value:
         container = self.expr(node.value)
+        if isinstance(container, ir.Opt):
+            self.raise_when(container.none, TypeError, node.lineno,
+                            "'NoneType' object is not subscriptable")
+            container = container.value
         if isinstance(container, ir.Term) and container.sort == ir.STR:
             return self.str_subscript(container, node)
         if not isinstance(container, ir.Tup):
@@ -848,6 +894,10 @@ class Translator(Calls):
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
         if isinstance(func, nodes.Attribute) and self.is_value(func.expr):
             subject = self.expr(func.expr)
+            if isinstance(subject, ir.Opt):
+                self.raise_when(subject.none, AttributeError, node.lineno,
+                                f"'NoneType' object has no attribute '{func.attrname}'")
+                subject = subject.value
             args = [self.expr(a) for a in node.args]
             result = None
             if isinstance(subject, ir.Term) and subject.sort == ir.STR:
@@ -858,19 +908,65 @@ class Translator(Calls):
             if result is not None:
                 return result
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
-        handler = _CALLS.get(id(self.scope.resolve(func)))
+        callee = self.scope.resolve(func)
+        if callee is isinstance and len(node.args) == 2:
+            return self.call_isinstance(self.expr(node.args[0]), node.args[1], node)
+        handler = _CALLS.get(id(callee))
         if handler is not None:
             method, fn_name = handler
             if (fn_name == "float" and len(node.args) == 1 and isinstance(node.args[0], nodes.Const)
                     and isinstance(node.args[0].value, str)):
                 return self.float_of_text(node.args[0].value, node)
             args = [self.expr(a) for a in node.args]
+            if fn_name not in ("bool", "str"):
+                # None is no number, str or sequence: these all raise TypeError for it.
+                args = [self.scalar(a, node, fn_name + "()") if isinstance(a, ir.Opt) else a
+                        for a in args]
             result = getattr(self, method)(fn_name, args, node)
             if result is not None:
                 return result
         return self.refuse("call", node.lineno, {"callee": func.as_string()})
 
     # ------------------------------------------------------------ helpers
+
+    def call_isinstance(self, v: ir.Value, types_node: nodes.NodeNG, node) -> ir.Term:
+        """``isinstance(v, T)`` for T among int, bool, float, str, tuple and
+        type(None), or a tuple of them (Python's bool is a subclass of int)."""
+        elts = types_node.elts if isinstance(types_node, nodes.Tuple) else [types_node]
+        classes = []
+        for e in elts:
+            if (isinstance(e, nodes.Call) and self.scope.resolve(e.func) is type
+                    and len(e.args) == 1 and isinstance(e.args[0], nodes.Const)
+                    and e.args[0].value is None):
+                classes.append(type(None))
+                continue
+            cls = self.scope.resolve(e)
+            if cls not in (int, bool, float, str, tuple, type(None), object):
+                return self.refuse("call", node.lineno, {
+                    "callee": f"isinstance(..., {e.as_string()})"})
+            classes.append(cls)
+        none, value = _optional(v) if not isinstance(v, ir.Tup) else (ir.FALSE, v)
+        tests = []
+        for cls in classes:
+            if cls is object:
+                return ir.TRUE
+            if cls is type(None):
+                tests.append(none)
+                continue
+            if value is None:
+                continue
+            if isinstance(value, ir.Tup):
+                tests.append(ir.const(cls is tuple))
+                continue
+            sort = value.sort
+            if cls is bool and sort == ir.INT and not isinstance(value, (ir.Var, ir.Const)):
+                # an int-sorted term may hold a bool merged into it (True if c else 1)
+                return self.refuse("call", node.lineno, {
+                    "callee": "isinstance(..., bool) of a value that may be a bool or an int"})
+            hit = {int: sort in (ir.INT, ir.BOOL), bool: sort == ir.BOOL,
+                   float: sort == ir.FLOAT, str: sort == ir.STR, tuple: False}[cls]
+            tests.append(ir.and_(ir.not_(none), ir.const(hit)))
+        return ir.or_(*tests)
 
     def is_value(self, node: nodes.NodeNG) -> bool:
         """Whether a method's subject is a value (``name.find``) rather than a
@@ -957,7 +1053,7 @@ def same_object(a: ir.Term, b: ir.Term) -> ir.Term:
 def translate_body(fn_node: nodes.FunctionDef, params: Sequence[ir.Var],
                    scope: Scope) -> ir.Behaviour:
     """The behaviour of a function body over its parameters."""
-    env = {p.name: p for p in params}
+    env = {p.name: ir.initial(p) for p in params}
     t = Translator(scope, env, role="body")
     t.block(fn_node.body)
     last = fn_node.body[-1] if fn_node.body else fn_node
