@@ -28,6 +28,6 @@ def test_messages_format_without_missing_fields(key):
     fields = {name: "X" for name in ("construct", "callee", "op", "types", "hint", "type",
                                      "name", "hint_text", "shapes", "qualname", "role",
                                      "allowed_what", "allowed", "exception", "inputs",
-                                     "runtime", "source", "method")}
+                                     "runtime", "source", "method", "attr", "cls", "why")}
     text, hint = format_message(key, **fields)
     assert text and hint and "{" not in text

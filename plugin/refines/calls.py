@@ -132,8 +132,18 @@ class Calls:
         if isinstance(v, ir.Term) and v.sort == ir.STR:
             return ir.op("len", v, sort=ir.INT) if not isinstance(v, ir.Const) \
                 else ir.const(len(v.value))
+        if isinstance(v, ir.Ref):
+            if v.kind.startswith("list:"):
+                return ir.op("len", self.contents(v), sort=ir.INT)
+            return None  # an object's __len__ is a method call
         kind = "NoneType" if v is ir.NONE else ("int" if v.sort == ir.BOOL else v.sort)
         return self.type_error(node, f"object of type '{kind}' has no len()")
+
+    def call_list(self, name, args, node):
+        """``list(xs)``: a new list with the same items (a shallow copy)."""
+        if len(args) == 1 and isinstance(args[0], ir.Ref) and args[0].kind.startswith("list:"):
+            return self.new_list(args[0].kind, self.contents(args[0]))
+        return None
 
     def call_str(self, name, args, node):
         if not args:
@@ -225,7 +235,7 @@ class Calls:
 
     def call_bool(self, name, args, node):
         if len(args) == 1:
-            return ir.truth(args[0])
+            return self.truth(args[0])
         if not args:
             return ir.FALSE
         return None
@@ -239,7 +249,7 @@ _CALLS = {id(fn): (method, name) for fn, method, name in (
     (math.isfinite, "call_math", "isfinite"), (math.fabs, "call_math", "fabs"),
     (math.sqrt, "call_math", "sqrt"), (math.floor, "call_math", "floor"),
     (math.ceil, "call_math", "ceil"), (math.copysign, "call_math", "copysign"),
-    (len, "call_len", "len"), (str, "call_str", "str"))}
+    (len, "call_len", "len"), (str, "call_str", "str"), (list, "call_list", "list"))}
 
 # The str methods modelled, for the hint when another one is called.
 STR_METHODS = ("startswith", "endswith", "find", "rfind", "index", "rindex", "replace")

@@ -68,6 +68,16 @@ MESSAGES: Dict[str, Message] = {
         "def f(code: str) -> str:\n    return code.upper()\n",
         "unsupported",
     ),
+    "attribute": Message(
+        "the attribute `{attr}` of `{cls}` is not modelled: {why}",
+        "objects are modelled through their annotated int, bool, float and str "
+        "attributes (dataclass fields, or class-level annotations)",
+        "from dataclasses import dataclass\n\n@dataclass\nclass Rope:\n"
+        "    length: int\n    tags: list\n\n"
+        "@refines(lambda r, result: True)\n"
+        "def f(r: Rope) -> int:\n    return len(r.tags)\n",
+        "unsupported",
+    ),
     "operator": Message(
         "the operator `{op}` is not translated for {types}",
         "{hint}",
@@ -150,12 +160,14 @@ MESSAGES: Dict[str, Message] = {
         "unsupported",
     ),
     "nested": Message(
-        "`{qualname}` is defined inside another function or class; only "
-        "module-level functions are proved in this release",
+        "`{qualname}` is defined inside another function or a nested class; only "
+        "module-level functions and methods of module-level classes are proved "
+        "in this release",
         "move the function to module level",
-        "class Fleet:\n    @staticmethod\n"
-        "    @refines(lambda x, result: result == x)\n"
-        "    def f(x: int) -> int:\n        return x\n",
+        "class Fleet:\n    class Boat:\n        @staticmethod\n"
+        "        @refines(lambda x, result: result == x)\n"
+        "        def f(x: int) -> int:\n            return x\n\n"
+        "launch = Fleet.Boat.f\n",
         "unsupported",
     ),
     # ---- malformed specs: verdict ``error``

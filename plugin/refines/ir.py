@@ -26,6 +26,20 @@ INT = "int"
 BOOL = "bool"
 FLOAT = "float"  # IEEE 754 binary64, as CPython computes it
 STR = "str"  # a sequence of Unicode code points
+# The heap (lists and objects): a reference is an int-like identity; the
+# contents of lists of a kind, or one attribute of a class, form an array from
+# references to values. A list's contents are a sequence "seq:<element sort>".
+REF = "ref"
+REF_SUFFIX = "!ref"  # the reference of a parameter that is a list or an object
+HEAP_PREFIX = "heap!"  # the pre-state array of one heap field
+
+
+def seq_sort(elem: str) -> str:
+    return "seq:" + elem
+
+
+def arr_sort(value: str) -> str:
+    return "arr:" + value
 
 ARITH_OPS = ("+", "-", "*", "//", "%")
 CMP_OPS = ("<", "<=", ">", ">=", "==", "!=")
@@ -37,7 +51,8 @@ _PREC = {"ite": 0, "or": 1, "and": 2, "not": 3, "cmp": 4, "+": 5, "-": 5,
          "*": 6, "/": 6, "//": 6, "%": 6, "neg": 7, "atom": 9}
 # Ops printed as an infix expression rather than a call: their strength.
 _OP_PREC = {"int_truediv": 6, "float_overflows": 4,
-            "int_truediv_overflows": 4, "contains": 4, "repeat": 6}
+            "int_truediv_overflows": 4, "contains": 4, "repeat": 6,
+            "seq_contains": 4}
 
 
 class Term:
@@ -55,6 +70,7 @@ class Var(Term):
     name: str
     sort: str
     optional: bool = False  # a parameter hinted Optional[...]: see ``initial``
+    kind: str = ""  # for a list or object parameter (sort REF): its kind
 
 
 @dataclass(frozen=True, repr=False, eq=False)
@@ -161,13 +177,21 @@ OP_TEMPLATES = {
     "contains": "{0} in {1}",
     "repeat": "{0} * {1}",
     "str_of_int": "str({0})",
+    # lists (sequences) and the heap; `select` of a pre-state field prints
+    # as the parameter it belongs to (see _render_select)
+    "nth": "{0}[{1}]",
+    "seq_contains": "{0} in {1}",
+    "seq_unit": "[{0}]",
+    "seq_update": "{0}[:{1}] + [{2}] + {0}[{1} + 1:]",
+    "select": "{0}[{1}]",
+    "store": "{0}[{1}: {2}]",
 }
 # Ops printed as ``subject.method(args)``: Python's str methods.
 _METHODS = {"find", "rfind", "startswith", "endswith", "replace"}
 for _name in _METHODS:
     OP_TEMPLATES[_name] = "{0}." + _name + "(...)"
 # Ops whose first argument is a subject that binds tightest (``(a + b)[0]``).
-_SUBJECT_OPS = _METHODS | {"getitem", "slice", "slice_from", "slice_to"}
+_SUBJECT_OPS = _METHODS | {"getitem", "slice", "slice_from", "slice_to", "nth"}
 
 
 def op(name: str, *args: Term, sort: str) -> Term:
@@ -265,7 +289,7 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
     if is_false(cond):
         return orelse
     if then.sort != orelse.sort:
-        if FLOAT in (then.sort, orelse.sort) or STR in (then.sort, orelse.sort):
+        if {then.sort, orelse.sort} - {INT, BOOL}:
             raise TypeError(f"an {then.sort} and an {orelse.sort} do not merge into one term")
         then, orelse = as_int(then), as_int(orelse)
     if then.sort == BOOL:
@@ -277,6 +301,14 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
 
 
 def arith(op: str, left: Term, right: Term) -> Term:
+    if left.sort.startswith("seq:") or right.sort.startswith("seq:"):
+        if op != "+" or left.sort != right.sort:
+            raise TypeError("list arithmetic is concatenation of two lists of one kind")
+        if isinstance(left, Const) and left.value == ():
+            return right
+        if isinstance(right, Const) and right.value == ():
+            return left
+        return Arith(op, left, right, left.sort)
     if STR in (left.sort, right.sort):
         # Only concatenation: str * int is the "repeat" op.
         if op != "+" or left.sort != STR or right.sort != STR:
@@ -340,6 +372,24 @@ def neg(a: Term) -> Term:
 
 
 def cmp(op: str, left: Term, right: Term) -> Term:
+    if left.sort == REF or right.sort == REF:
+        if op not in ("==", "!=") or left.sort != right.sort:
+            raise TypeError("references compare by identity only")
+        if left is right:
+            same = True
+        elif _fresh(left) and _fresh(right):
+            same = left.value == right.value
+        elif (_fresh(left) and isinstance(right, Var)) or (_fresh(right) and isinstance(left, Var)):
+            same = False  # a new object is none of the parameters
+        else:
+            return Cmp(op, left, right)
+        return const(same == (op == "=="))
+    if left is right and left.sort != FLOAT:
+        return const(op in ("==", "<=", ">="))  # x == x, except for a NaN
+    if left.sort.startswith("seq:"):
+        if left.sort != right.sort or op not in ("==", "!="):
+            raise TypeError("lists of one kind compare with == and != only")
+        return Cmp(op, left, right)
     if STR in (left.sort, right.sort):
         # Strings compare with strings only; the translator settles the rest
         # (== is False, < raises TypeError) before building a comparison.
@@ -357,6 +407,44 @@ def cmp(op: str, left: Term, right: Term) -> Term:
         return const({"<": a < b, "<=": a <= b, ">": a > b, ">=": a >= b,
                       "==": a == b, "!=": a != b}[op])
     return Cmp(op, left, right)
+
+
+def _fresh(t: Term) -> bool:
+    """A reference to an object made during the call: a negative constant."""
+    return isinstance(t, Const) and t.sort == REF
+
+
+def fresh_ref(n: int) -> Const:
+    return Const(-1 - n, REF)
+
+
+def empty_seq(elem: str) -> Const:
+    return Const((), seq_sort(elem))
+
+
+def select(arr: Term, ref: Term) -> Term:
+    """The value of one heap field for one reference. Pushed through writes
+    and branches, so that every read ends on a pre-state field: a post-state
+    value is then an if-then-else over pre-state reads and written values
+    (``ys`` after ``xs.append(1)`` is ``xs + [1] if ys is xs else ys``)."""
+    value_sort = arr.sort[len("arr:"):]
+    while True:
+        if isinstance(arr, Op) and arr.name == "store":
+            base, at, value = arr.args
+            same = cmp("==", at, ref)
+            if is_true(same):
+                return value
+            if is_false(same):
+                arr = base
+                continue
+            return ite(same, value, select(base, ref))
+        if isinstance(arr, Ite):
+            return ite(arr.cond, select(arr.then, ref), select(arr.orelse, ref))
+        return Op("select", (arr, ref), value_sort)
+
+
+def store(arr: Term, ref: Term, value: Term) -> Term:
+    return Op("store", (arr, ref, value), arr.sort)
 
 
 def _is_zero(t: Term) -> bool:
@@ -408,7 +496,19 @@ class Opt:
         return f"None if {render(self.none)} else {render(self.value)}"
 
 
-Value = Union[Term, Tup, NoneValue, Opt]
+@dataclass(frozen=True, eq=False)
+class Ref:
+    """A list or an object: a reference (sort REF) and its kind, e.g.
+    ``list:int`` or ``obj:shop.Account``. What it holds lives on the heap."""
+
+    ref: Term
+    kind: str
+
+    def __repr__(self) -> str:
+        return f"<{self.kind} {render(self.ref)}>"
+
+
+Value = Union[Term, Tup, NoneValue, Opt, Ref]
 
 
 def render_value(v: Value) -> str:
@@ -422,10 +522,13 @@ _INITIAL: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 def initial(p: Var) -> Value:
     """The value of parameter ``p`` on entry; for an optional parameter, the
     same ``Opt`` object every time, so identity (``x is x``) is preserved."""
-    if not p.optional:
+    if not p.optional and p.sort != REF:
         return p
     if p not in _INITIAL:
-        _INITIAL[p] = Opt(Var(p.name + NONE_SUFFIX, BOOL), Var(p.name, p.sort))
+        if p.sort == REF:
+            _INITIAL[p] = Ref(Var(p.name + REF_SUFFIX, REF), p.kind)
+        else:
+            _INITIAL[p] = Opt(Var(p.name + NONE_SUFFIX, BOOL), Var(p.name, p.sort))
     return _INITIAL[p]
 
 
@@ -469,6 +572,9 @@ class Outcome:
     # Set when what happens here is not modelled (e.g. the sign of a NaN):
     # such an outcome can neither prove nor refute, only make a check unknown.
     unmodelled: str = ""
+    # For a return: the heap fields written by then (key -> array term); a
+    # field not in it still holds its pre-state value.
+    heap: Optional[dict] = None
 
     @property
     def returns(self) -> bool:
@@ -559,7 +665,29 @@ def _float_text(value: float):
     return text, _PREC["neg"] if text.startswith("-") else _PREC["atom"]
 
 
+def _render_select(t: Op, memo: dict):
+    """A pre-state read prints as Python: ``xs`` for a list parameter's
+    contents, ``acct.balance`` for an attribute of an object parameter."""
+    arr, ref = t.args
+    if isinstance(arr, Var) and arr.name.startswith(HEAP_PREFIX) and isinstance(ref, Var) \
+            and ref.name.endswith(REF_SUFFIX):
+        owner = ref.name[:-len(REF_SUFFIX)]
+        field = arr.name[len(HEAP_PREFIX):]
+        if field.startswith("list:"):
+            return owner, _PREC["atom"]
+        return f"{owner}.{field.rsplit('.', 1)[1]}", _PREC["atom"]
+    return f"{_render(arr, _PREC['atom'], memo)}[{_render(ref, 0, memo)}]", _PREC["atom"]
+
+
 def _render_node(t: Term, memo: dict):
+    if isinstance(t, Op) and t.name == "select":
+        return _render_select(t, memo)
+    if isinstance(t, Var) and t.name.endswith(REF_SUFFIX):
+        return t.name[:-len(REF_SUFFIX)], _PREC["atom"]
+    if isinstance(t, Cmp) and t.left.sort == REF and t.op in ("==", "!="):
+        p = _PREC["cmp"]
+        word = "is" if t.op == "==" else "is not"
+        return f"{_render(t.left, p + 1, memo)} {word} {_render(t.right, p + 1, memo)}", p
     if isinstance(t, Var):
         if t.name.endswith(NONE_SUFFIX):
             return f"{t.name[:-len(NONE_SUFFIX)]} is None", _PREC["cmp"]
@@ -571,6 +699,10 @@ def _render_node(t: Term, memo: dict):
             return repr(t.value), _PREC["neg"]
         if t.sort == STR:
             return repr(t.value), _PREC["atom"]
+        if t.sort.startswith("seq:"):
+            return repr(list(t.value)), _PREC["atom"]
+        if t.sort == REF:
+            return f"<new object {-t.value}>", _PREC["atom"]
         return repr(t.value), _PREC["atom"]
     if isinstance(t, Op):
         p = _OP_PREC.get(t.name, _PREC["atom"])

@@ -40,7 +40,37 @@ OPS = {
     "repeat": lambda ctx, s, n: strmath.repeat(s, n, ctx),
     "replace": lambda ctx, s, old, new: strmath.replace(s, old, new, ctx),
     "str_of_int": lambda ctx, n: strmath.of_int(n, ctx),
+    # lists and the heap
+    "nth": lambda ctx, s, i: s[z3.If(i < z3.IntVal(0, ctx), z3.Length(s) + i, i)],
+    "seq_contains": lambda ctx, x, s: z3.Contains(s, z3.Unit(x)),
+    "seq_unit": lambda ctx, x: z3.Unit(x),
+    "seq_update": lambda ctx, s, i, x: _seq_update(s, i, x, ctx),
+    "select": lambda ctx, a, r: z3.Select(a, r),
+    "store": lambda ctx, a, r, v: z3.Store(a, r, v),
 }
+
+
+def _seq_update(s, i, x, ctx):
+    """``s`` with item ``i`` (already normalised to 0 <= i < len(s)) replaced."""
+    one = z3.IntVal(1, ctx)
+    return z3.Concat(z3.SubSeq(s, z3.IntVal(0, ctx), i), z3.Unit(x),
+                     z3.SubSeq(s, i + one, z3.Length(s) - i - one))
+
+
+def z3_sort(sort: str, ctx: z3.Context) -> z3.SortRef:
+    if sort in (ir.INT, ir.REF):
+        return z3.IntSort(ctx)
+    if sort == ir.BOOL:
+        return z3.BoolSort(ctx)
+    if sort == ir.FLOAT:
+        return fpmath.sort(ctx)
+    if sort == ir.STR:
+        return z3.StringSort(ctx)
+    if sort.startswith("seq:"):
+        return z3.SeqSort(z3_sort(sort[4:], ctx))
+    if sort.startswith("arr:"):
+        return z3.ArraySort(z3.IntSort(ctx), z3_sort(sort[4:], ctx))
+    raise TypeError(f"no solver sort for {sort!r}")
 
 
 # Ops lowered to a fresh constant plus a definition of it (see ``definitions``).
@@ -65,14 +95,11 @@ class Lowering:
     def var(self, name: str, sort: str) -> z3.ExprRef:
         key = f"{name}:{sort}"
         if key not in self.vars:
-            if sort == ir.INT:
-                self.vars[key] = z3.Int(name, self.ctx)
-            elif sort == ir.FLOAT:
-                self.vars[key] = z3.FP(name, fpmath.sort(self.ctx))
-            elif sort == ir.STR:
-                self.vars[key] = z3.String(name, self.ctx)
-            else:
-                self.vars[key] = z3.Bool(name, self.ctx)
+            self.vars[key] = z3.Const(name, z3_sort(sort, self.ctx))
+            if sort == ir.REF:
+                # Parameters' objects are numbered from 0; the objects a call
+                # makes are the negative numbers (ir.fresh_ref).
+                self.definitions.append(self.vars[key] >= z3.IntVal(0, self.ctx))
         return self.vars[key]
 
     def __call__(self, t: ir.Term) -> z3.ExprRef:
@@ -104,6 +131,10 @@ class Lowering:
                 return fpmath.const(float(t.value), ctx)
             if t.sort == ir.STR:
                 return strmath.const(t.value, ctx)
+            if t.sort == ir.REF:
+                return z3.IntVal(int(t.value), ctx)
+            if t.sort.startswith("seq:"):
+                return z3.Empty(z3_sort(t.sort, ctx))  # the only list constant
             return z3.IntVal(int(t.value), ctx)
         if isinstance(t, ir.Op) and t.name in _DEFINED:
             args = [m[id(a)] for a in t.args]
@@ -119,8 +150,11 @@ class Lowering:
             return _FLOAT_ARITH[t.op](m[id(t.left)], m[id(t.right)], ctx)
         if isinstance(t, ir.Neg) and t.sort == ir.FLOAT:
             return fpmath.neg(m[id(t.arg)], ctx)
-        if isinstance(t, ir.Arith) and t.sort == ir.STR:
+        if isinstance(t, ir.Arith) and (t.sort == ir.STR or t.sort.startswith("seq:")):
             return z3.Concat(m[id(t.left)], m[id(t.right)])
+        if isinstance(t, ir.Cmp) and (t.left.sort.startswith("seq:") or t.left.sort == ir.REF):
+            a, b = m[id(t.left)], m[id(t.right)]
+            return a == b if t.op == "==" else a != b
         if isinstance(t, ir.Cmp) and t.left.sort == ir.STR:
             return strmath.compare(t.op, m[id(t.left)], m[id(t.right)])
         if isinstance(t, ir.Cmp) and ir.FLOAT in (t.left.sort, t.right.sort):

@@ -43,11 +43,12 @@ def translate_spec_for(ob: Obligation) -> Spec:
     """Translate assuming, raises and relation over the parameters."""
     pre: Dict[str, ir.Value] = {p.name: ir.initial(p) for p in ob.params}
 
-    def read(part: SpecPart, env: Dict[str, ir.Value], old: Optional[dict] = None):
+    def read(part: SpecPart, env: Dict[str, ir.Value], old: Optional[dict] = None,
+             heap_state: Optional[dict] = None):
         scope = Scope(part.globals, part.params)
         try:
             return translate_spec(part.body, {n: env[n] for n in part.params}, scope,
-                                  part.role, old_env=old)
+                                  part.role, old_env=old, heap_state=heap_state)
         except (SpecError, Untranslatable) as exc:
             if isinstance(exc, SpecError) and exc.path is None:
                 exc.path = part.path
@@ -57,8 +58,9 @@ def translate_spec_for(ob: Obligation) -> Spec:
                 else SpecValue(ir.TRUE, ir.TRUE, ()))
     raises = tuple((cls, part, read(part, pre)) for cls, part in ob.raises)
 
-    def relation(result: ir.Value) -> SpecValue:
-        return read(ob.relation, dict(pre, result=result), old=pre)
+    def relation(result: ir.Value, heap_state: Optional[dict] = None) -> SpecValue:
+        # The parameters are read in the post-state heap; old(...) in the pre-state.
+        return read(ob.relation, dict(pre, result=result), old=pre, heap_state=heap_state)
 
     return Spec(assuming, raises, relation)
 
@@ -69,7 +71,8 @@ def allowed(spec: Spec, outcome: ir.Outcome, relation: Optional[SpecValue] = Non
         return ir.or_(*(r.holds for cls, _, r in spec.raises
                         if issubclass(outcome.exception, cls)))
     no_raise_required = ir.and_(*(ir.not_(r.holds) for _, _, r in spec.raises))
-    relation = relation if relation is not None else spec.relation(outcome.value)
+    relation = relation if relation is not None else spec.relation(outcome.value,
+                                                                   outcome.heap)
     return ir.and_(no_raise_required, relation.holds)
 
 
@@ -89,17 +92,30 @@ def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
         else:
             out.append(Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o))
     for members in groups.values():
-        value = members[-1].value
+        value, heap_state = members[-1].value, dict(members[-1].heap or {})
         for o in reversed(members[:-1]):
             value = _merge_value(o.guard, o.value, value)
+            heap_state = _merge_heap(o.guard, o.heap or {}, heap_state)
         guard = ir.or_(*(o.guard for o in members))
-        merged = ir.Outcome(guard, value=value, line=members[0].line)
+        merged = ir.Outcome(guard, value=value, line=members[0].line, heap=heap_state)
         out.append(Violation(ir.and_(guard, ir.not_(allowed(spec, merged))), merged))
+    return out
+
+
+def _merge_heap(cond: ir.Term, a: dict, b: dict) -> dict:
+    from refines.heap import initial_field
+
+    out = {}
+    for key in set(a) | set(b):
+        x, y = a.get(key) or initial_field(key), b.get(key) or initial_field(key)
+        out[key] = x if x is y else ir.ite(cond, x, y)
     return out
 
 
 def _shape(v: ir.Value) -> str:
     """Values of one shape merge into one if-then-else value."""
+    if isinstance(v, ir.Ref):
+        return v.kind
     if isinstance(v, ir.Tup):
         return "(" + ",".join(_shape(i) for i in v.items) + ")"
     if isinstance(v, ir.Opt):
@@ -114,6 +130,8 @@ def _merge_value(cond: ir.Term, a: ir.Value, b: ir.Value) -> ir.Value:
         return ir.Tup(tuple(_merge_value(cond, x, y) for x, y in zip(a.items, b.items)))
     if isinstance(a, ir.Opt):
         return ir.Opt(ir.ite(cond, a.none, b.none), ir.ite(cond, a.value, b.value))
+    if isinstance(a, ir.Ref):
+        return ir.Ref(ir.ite(cond, a.ref, b.ref), a.kind)
     if a is ir.NONE:
         return ir.NONE
     return ir.ite(cond, a, b)

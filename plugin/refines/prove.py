@@ -20,7 +20,7 @@ from typing import Any, Callable
 
 import z3
 
-from refines import fpmath, ir, precondition, replay, solve, strmath
+from refines import fpmath, heap, ir, precondition, replay, solve, strmath
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering
 from refines.obligation import Spec, translate_spec_for, violations
@@ -72,23 +72,65 @@ class Solver:
         assertions += self.lower.definitions  # of fresh constants (lower.Lowering)
         return self.runner.check(assertions)
 
-    def value(self, model: z3.ModelRef, v: ir.Value) -> Any:
-        """The Python value of ``v`` in ``model``."""
+    def inputs(self, model: z3.ModelRef, params) -> dict:
+        """The arguments a model gives; parameters whose references are equal
+        get one shared list or object (aliasing)."""
+        made: dict = {}
+        return {p.name: self.value(model, ir.initial(p), None, made) for p in params}
+
+    def value(self, model: z3.ModelRef, v: ir.Value, heap_state: dict = None,
+              made: dict = None) -> Any:
+        """The Python value of ``v`` in ``model``; lists and objects are read
+        in ``heap_state`` (the pre-state where None), one object per reference."""
+        if isinstance(v, ir.Ref):
+            return self._object(model, v, heap_state or {}, {} if made is None else made)
         if isinstance(v, ir.Tup):
-            return tuple(self.value(model, i) for i in v.items)
+            return tuple(self.value(model, i, heap_state, made) for i in v.items)
         if v is ir.NONE:
             return None
         if isinstance(v, ir.Opt):
             none = z3.is_true(model.eval(self.lower(v.none), model_completion=True))
-            return None if none else self.value(model, v.value)
+            return None if none else self.value(model, v.value, heap_state, made)
         if v.sort == ir.FLOAT:
             return fpmath.read(model, self.lower(v))
         if v.sort == ir.STR:
             return strmath.read(model, self.lower(v))
+        if v.sort.startswith("seq:"):
+            return self._items(model, self.lower(v), v.sort[4:])
         z = model.eval(self.lower(v), model_completion=True)
         if v.sort == ir.BOOL:
             return z3.is_true(z)
         return z.as_long()
+
+
+    def _items(self, model, seq: z3.ExprRef, elem: str) -> list:
+        n = model.eval(z3.Length(seq), model_completion=True).as_long()
+        out = []
+        for i in range(n):
+            z = model.eval(seq[i], model_completion=True)
+            out.append(strmath.read(model, z) if elem == ir.STR
+                       else z3.is_true(z) if elem == ir.BOOL else z.as_long())
+        return out
+
+    def _object(self, model, v: ir.Ref, heap_state: dict, made: dict) -> Any:
+        number = model.eval(self.lower(v.ref), model_completion=True).as_long()
+        key = (v.kind, number)
+        if key in made:
+            return made[key]
+        if v.kind.startswith("list:"):
+            made[key] = self.value(model, ir.select(
+                heap_state.get(v.kind) or heap.initial_field(v.kind), v.ref))
+            return made[key]
+        info = heap.KINDS[v.kind]
+        obj = info.cls.__new__(info.cls)  # its fields as the model has them, not via __init__
+        made[key] = obj
+        for attr in info.fields:
+            k = heap.field_key(v.kind, attr)
+            object.__setattr__(obj, attr, self.value(model, ir.select(
+                heap_state.get(k) or heap.initial_field(k), v.ref)))
+        for attr in info.skipped:  # not modelled: its default, if the class has one
+            object.__setattr__(obj, attr, getattr(info.cls, attr, None))
+        return obj
 
 
 def _rlimit_spent(s: z3.Solver) -> int:
@@ -168,14 +210,17 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
             result.hint = "raise --refines-timeout, or split the function"
         return result
 
-    inputs = {p.name: solver.value(model, ir.initial(p)) for p in ob.params}
+    inputs = solver.inputs(model, ob.params)
     predicted = _predicted(solver, model, behaviour)
+    call = replay.call_text(ob, inputs)
+    shown = {k: repr(v) for k, v in inputs.items()}
+    pre = replay.before(inputs)
     actual = replay.run(ob, inputs)
-    judgement = replay.judge(ob, inputs, actual)
-    if judgement.holds or not replay.assuming_holds(ob, inputs):
+    judgement = replay.judge(ob, inputs, actual, pre)
+    if judgement.holds or not replay.assuming_holds(ob, pre):
         result.verdict = ERROR
         result.reason = (
-            f"translation disagrees with Python on {replay.call_text(ob, inputs)}: "
+            f"translation disagrees with Python on {call}: "
             f"the translation predicted it {predicted} and breaks the spec, but the "
             f"real call {actual.describe()}, which "
             + ("meets the spec" if judgement.holds else "is outside `assuming`"))
@@ -184,9 +229,13 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
                        "otherwise please report it as a bug in pytest-refines")
         return result
     result.verdict = REFUTED
+    alias = replay.shared(ob, pre)
+    if alias:
+        result.notes.append("aliasing: " + "; ".join(
+            f"`{a}` is the same object as `{b}`" for a, b in alias.items())
+            + " -- the counterexample needs it, and a repr cannot show it")
     result.counterexample = Counterexample(
-        inputs={k: repr(v) for k, v in inputs.items()},
-        call=replay.call_text(ob, inputs), outcome=actual.outcome, confirmed=True,
+        inputs=shown, call=call, outcome=actual.outcome, confirmed=True,
         violated=judgement.violated, violated_at=judgement.violated_at,
         detail=judgement.detail or (str(actual.raised) if actual.raised else ""))
 
@@ -222,7 +271,7 @@ def _unmodelled(ob: Obligation, behaviour: ir.Behaviour, spec, solver: Solver):
             continue
         where = ob.where(ob.path, o.line)
         if status == z3.sat:
-            inputs = {p.name: solver.value(model, ir.initial(p)) for p in ob.params}
+            inputs = solver.inputs(model, ob.params)
             return (f"not proved: {o.unmodelled} ({where}) happens for "
                     f"{replay.call_text(ob, inputs)}; every other outcome meets the spec")
         return f"not proved: {o.unmodelled} ({where}) may happen"
@@ -235,7 +284,7 @@ def _predicted(solver: Solver, model, behaviour: ir.Behaviour) -> str:
             if o.unmodelled:
                 return f"reaches something not modelled ({o.unmodelled})"
             if o.returns:
-                return f"returns {solver.value(model, o.value)!r}"
+                return f"returns {solver.value(model, o.value, o.heap)!r}"
             return f"raises {o.exception.__name__}"
     return "ends in no modelled way"
 
@@ -250,7 +299,7 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
         for o in raising:
             status, model, _ = solver.check(context, o.guard)
             if status == z3.sat:
-                inputs = {p.name: solver.value(model, ir.initial(p)) for p in ob.params}
+                inputs = solver.inputs(model, ob.params)
                 shown = ", ".join(f"{k}={v!r}" for k, v in inputs.items()
                                   if k in part.params)
                 text, hint = format_message("spec-raising", role=f"`{part.role}`",

@@ -7,6 +7,8 @@ is an independent check of what the translator predicted.
 
 from __future__ import annotations
 
+import ast
+import copy
 import math
 from dataclasses import dataclass
 from typing import Any, Dict, List, Optional, Tuple
@@ -68,12 +70,40 @@ def literal(value: Any) -> str:
     return repr(value)
 
 
+def shared(ob: Obligation, inputs: Dict[str, Any]) -> Dict[str, str]:
+    """Parameters that receive the same list or object as an earlier one
+    (name -> that earlier name): aliasing, which a repr cannot show."""
+    first: Dict[int, str] = {}
+    out = {}
+    for p in ob.params:
+        if p.sort != "ref":
+            continue
+        key = id(inputs[p.name])
+        if key in first:
+            out[p.name] = first[key]
+        else:
+            first[key] = p.name
+    return out
+
+
 def call_text(ob: Obligation, inputs: Dict[str, Any]) -> str:
-    """The call as a user would paste it."""
-    parts = [literal(inputs[p.name]) if kind == "positional-only"
-             else f"{p.name}={literal(inputs[p.name])}"
-             for p, kind in zip(ob.params, ob.kinds)]
-    return f"{ob.fn.__name__}({', '.join(parts)})"
+    """The call as a user would paste it; with aliasing, the shared object is
+    bound to a name first (``xs = [0]; f(xs=xs, ys=xs)``)."""
+    alias = shared(ob, inputs)
+    named = set(alias.values())
+    parts = []
+    for p, kind in zip(ob.params, ob.kinds):
+        text = alias.get(p.name) or (p.name if p.name in named else literal(inputs[p.name]))
+        parts.append(text if kind == "positional-only" else f"{p.name}={text}")
+    prefix = "".join(f"{n} = {literal(inputs[n])}; " for n in sorted(named))
+    name = ob.fn.__name__ if "." not in ob.fn.__qualname__ else ob.fn.__qualname__
+    return f"{prefix}{name}({', '.join(parts)})"
+
+
+def before(inputs: Dict[str, Any]) -> Dict[str, Any]:
+    """Copies of the inputs as they are before the call; one deep copy of all
+    of them, so that two names for one object stay one object."""
+    return copy.deepcopy(inputs)
 
 
 def run(ob: Obligation, inputs: Dict[str, Any]) -> Run:
@@ -86,15 +116,59 @@ def run(ob: Obligation, inputs: Dict[str, Any]) -> Run:
         return Run(raised=exc)
 
 
-def _call_part(part: SpecPart, values: Dict[str, Any]) -> Any:
+def _call_part(part: SpecPart, values: Dict[str, Any],
+               pre: Optional[Dict[str, Any]] = None) -> Any:
+    if pre is not None and "old(" in part.text:
+        return evaluate(part.text, part, values, pre)
     return part.runtime(*[values[name] for name in part.params])
 
 
-def judge(ob: Obligation, inputs: Dict[str, Any], outcome: Run) -> Judgement:
-    """Does this run meet the spec? Evaluated by calling the spec's own lambdas."""
+class _OldReader(ast.NodeTransformer):
+    """Replace each ``old(e)`` by a name bound to ``e`` read in the pre-state."""
+
+    def __init__(self) -> None:
+        self.found: List[ast.expr] = []
+
+    def visit_Call(self, node: ast.Call):
+        func = node.func
+        name = func.id if isinstance(func, ast.Name) else (
+            func.attr if isinstance(func, ast.Attribute) else "")
+        if name == "old" and len(node.args) == 1 and not node.keywords:
+            self.found.append(node.args[0])
+            return ast.copy_location(ast.Name(f"__old_{len(self.found) - 1}", ast.Load()), node)
+        return self.generic_visit(node)
+
+
+def evaluate(text: str, part: SpecPart, values: Dict[str, Any],
+             pre: Optional[Dict[str, Any]] = None) -> Any:
+    """Evaluate a spec expression on ``values``, with ``old(e)`` read on ``pre``
+    (the pre-state copies: lists and objects may have changed since)."""
+    tree = ast.parse("(\n" + text + "\n)", mode="eval")
+    reader = _OldReader()
+    tree = ast.fix_missing_locations(reader.visit(tree))
+    names = list(part.params)
+    olds = []
+    for e in reader.found:
+        lam = ast.Expression(ast.Lambda(
+            ast.arguments(posonlyargs=[], args=[ast.arg(n) for n in names], kwonlyargs=[],
+                          kw_defaults=[], defaults=[]), e))
+        fn = eval(compile(ast.fix_missing_locations(lam), "<old>", "eval"), part.globals)
+        olds.append(fn(*[(pre or values)[n] for n in names]))
+    env = dict(part.globals)
+    env.update({f"__old_{i}": v for i, v in enumerate(olds)})
+    env.update({n: values[n] for n in names})
+    return eval(compile(tree, "<spec>", "eval"), env)
+
+
+def judge(ob: Obligation, inputs: Dict[str, Any], outcome: Run,
+          pre: Optional[Dict[str, Any]] = None) -> Judgement:
+    """Does this run meet the spec? Evaluated by calling the spec's own lambdas.
+    ``inputs`` are the objects passed (changed by the call, if it changes
+    them); ``pre`` are copies taken before, for ``raises`` and ``old(...)``."""
+    pre = inputs if pre is None else pre
     required: List[Tuple[type, SpecPart]] = []
     for cls, part in ob.raises:
-        if _call_part(part, inputs):
+        if _call_part(part, pre):
             required.append((cls, part))
     if required:
         if outcome.raised is not None and any(isinstance(outcome.raised, cls)
@@ -107,14 +181,15 @@ def judge(ob: Obligation, inputs: Dict[str, Any], outcome: Run) -> Judgement:
         return Judgement(False, f"no raises= entry allows {exc}",
                          ob.where(ob.relation.path, ob.relation.line), detail=str(outcome.raised))
     values = dict(inputs, result=outcome.returned)
+    pre_values = dict(pre, result=outcome.returned)
     rel = ob.relation
     try:
-        if _call_part(rel, values):
+        if _call_part(rel, values, pre_values):
             return Judgement(True)
     except Exception as exc:  # noqa: BLE001 -- a relation that raises does not hold
         return Judgement(False, rel.text, ob.where(rel.path, rel.line),
                          detail=f"the relation raised {type(exc).__name__}: {exc}")
-    text, line = failing_conjunct(rel, values)
+    text, line = failing_conjunct(rel, values, pre_values)
     return Judgement(False, text, ob.where(rel.path, line))
 
 
@@ -136,16 +211,16 @@ def conjuncts(node: nodes.NodeNG, lines: List[bytes]) -> List[Tuple[str, int]]:
     return [(node_text(node, lines), node.lineno)]
 
 
-def failing_conjunct(part: SpecPart, values: Dict[str, Any]) -> Tuple[str, int]:
+def failing_conjunct(part: SpecPart, values: Dict[str, Any],
+                     pre: Optional[Dict[str, Any]] = None) -> Tuple[str, int]:
     """The first conjunct of the relation that is false on these values."""
     _, lines = parse_file(part.path)
     parts = conjuncts(part.body, lines)
     if len(parts) == 1:
         return part.text, part.line
     for text, line in parts:
-        fn = eval(f"lambda {', '.join(part.params)}: (\n{text}\n)", part.globals)
         try:
-            if not fn(*[values[n] for n in part.params]):
+            if not evaluate(text, part, values, pre):
                 return text, line
         except Exception:  # noqa: BLE001
             return text, line

@@ -17,7 +17,7 @@ from typing import Callable, Dict, List, Optional, Tuple
 import astroid
 from astroid import nodes
 
-from refines import ir
+from refines import heap, ir
 from refines.declare import SPECS_ATTRIBUTE, Spec, refines
 from refines.errors import SpecError, Untranslatable
 
@@ -124,10 +124,16 @@ def find_function(fn: Callable, path: str) -> Tuple[nodes.FunctionDef, List[byte
                              {"qualname": inner.__qualname__})
     module, lines = parse_file(path)
     qualname = fn.__qualname__
-    if "." in qualname:
+    body = module.body
+    if qualname.count(".") == 1 and "<locals>" not in qualname:
+        # A method of a module-level class: look in the class body.
+        owner = [n for n in module.body
+                 if isinstance(n, nodes.ClassDef) and n.name == qualname.split(".")[0]]
+        body = owner[-1].body if owner else []
+    elif "." in qualname:
         raise Untranslatable("nested", fn.__code__.co_firstlineno, {"qualname": qualname})
     first_line = fn.__code__.co_firstlineno
-    candidates = [n for n in module.body
+    candidates = [n for n in body
                   if isinstance(n, nodes.FunctionDef) and n.name == fn.__name__]
     for n in candidates:
         starts = [n.lineno] + [d.lineno for d in (n.decorators.nodes if n.decorators else [])]
@@ -197,13 +203,36 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
               (args.args or [], args.annotations or [], "positional"),
               (args.kwonlyargs or [], args.kwonlyargs_annotations or [], "keyword")]
     params, kinds = [], []
-    for arg_nodes, hints, kind in groups:
+    for arg_nodes, hints, kind_name in groups:
         for i, arg in enumerate(arg_nodes):
             ann = hints[i] if i < len(hints) else None
-            sort, optional = param_type(arg.name, ann, globals_, fn_node)
-            params.append(ir.Var(arg.name, sort, optional))
-            kinds.append(kind)
+            if ann is None and not params and _method_of(fn_node, globals_) is not None:
+                # `self` of a method: an instance of its class.
+                kind = heap.class_kind(_method_of(fn_node, globals_))
+                if kind is None:
+                    raise Untranslatable("param-type", fn_node.lineno, {
+                        "name": arg.name,
+                        "hint_text": fn_node.parent.name + " (a class without annotated "
+                                                           "attributes)"})
+                params.append(ir.Var(arg.name, ir.REF, False, kind))
+                kinds.append(kind_name)
+                continue
+            sort, optional, kind = param_type(arg.name, ann, globals_, fn_node)
+            params.append(ir.Var(arg.name, sort, optional, kind))
+            kinds.append(kind_name)
     return tuple(params), tuple(kinds)
+
+
+def _method_of(fn_node: nodes.FunctionDef, globals_: dict):
+    """The class a function is a method of (a module-level class), if any."""
+    parent = fn_node.parent
+    if isinstance(parent, nodes.ClassDef) and isinstance(parent.parent, nodes.Module):
+        cls = globals_.get(parent.name)
+        if isinstance(cls, type) and not any(
+                isinstance(d, nodes.Name) and d.name in ("staticmethod", "classmethod")
+                for d in (fn_node.decorators.nodes if fn_node.decorators else [])):
+            return cls
+    return None
 
 
 def param_type(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node):
@@ -245,7 +274,17 @@ def _hint(node: nodes.NodeNG, globals_: dict):
 
     def plain(n):
         obj = lookup(n)
-        return _SORTS.get(obj) if isinstance(obj, type) else None
+        if isinstance(obj, type) and obj in _SORTS:
+            return _SORTS[obj], ""
+        if isinstance(n, nodes.Subscript) and lookup(n.value) in (list, typing.List):
+            elem = lookup(n.slice)
+            if elem in heap.LIST_ELEMENTS:
+                return ir.REF, heap.list_kind(heap.LIST_ELEMENTS[elem])
+            return None
+        if isinstance(obj, type) and obj.__module__ not in ("builtins", "typing"):
+            kind = heap.class_kind(obj)
+            return None if kind is None else (ir.REF, kind)
+        return None
 
     members = None
     if isinstance(node, nodes.BinOp) and node.op == "|":
@@ -257,13 +296,15 @@ def _hint(node: nodes.NodeNG, globals_: dict):
         elif origin is typing.Union and isinstance(node.slice, nodes.Tuple):
             members = list(node.slice.elts)
     if members is None:
-        sort = plain(node)
-        return None if sort is None else (sort, False)
+        found = plain(node)
+        return None if found is None else (found[0], False, found[1])
     types = [m for m in members if m is not None and not is_none(m)]
     if len(types) != 1 or len(types) == len(members):
         return None  # a union of two types, or no None in it
-    sort = plain(types[0])
-    return None if sort is None else (sort, True)
+    found = plain(types[0])
+    if found is None or found[0] == ir.REF:
+        return None  # Optional lists and objects are not modelled yet
+    return found[0], True, ""
 
 
 def read_part(node: Optional[nodes.NodeNG], runtime: Callable, role: str,

@@ -26,6 +26,7 @@ the only road to an ``unknown`` verdict.
 from __future__ import annotations
 
 import builtins
+import dataclasses
 import math
 import types
 from dataclasses import dataclass
@@ -35,7 +36,9 @@ import astroid
 from astroid import nodes
 
 from refines import ir, strmath
+from refines import heap
 from refines.calls import _CALLS, STR_METHODS, Calls
+from refines.heap import Heap
 from refines.errors import SpecError, Untranslatable
 
 # Python statement keywords for the node kinds we do not translate yet.
@@ -78,6 +81,8 @@ class Conflict:
 
 
 def shape(v: ir.Value) -> str:
+    if isinstance(v, ir.Ref):
+        return heap.describe(v.kind)
     if isinstance(v, ir.Opt):
         return f"Optional[{shape(v.value)}]"
     if isinstance(v, ir.Tup):
@@ -112,6 +117,8 @@ def merge(cond: ir.Term, a, b):
         return MaybeUnbound(merge(cond, av, bv), bound)
     if a is ir.NONE and b is ir.NONE:
         return ir.NONE
+    if isinstance(a, ir.Ref) and isinstance(b, ir.Ref) and a.kind == b.kind:
+        return ir.Ref(ir.ite(cond, a.ref, b.ref), a.kind)
     if isinstance(a, (ir.Term, ir.Opt, ir.NoneValue)) and isinstance(b, (ir.Term, ir.Opt, ir.NoneValue)):
         # None on some paths and a number or str on the others: an Opt.
         if isinstance(a, ir.Term) and isinstance(b, ir.Term):
@@ -175,6 +182,10 @@ class Scope:
             value = getattr(builtins, name)
         else:
             raise Untranslatable("name", line, {"name": name})
+        return self.constant(value, line, name)
+
+    def constant(self, value, line: int, name: str = ""):
+        """The term of a module-level value (or an attribute of a module)."""
         # Python's bool is an int subclass; both are modelled exactly, as are floats.
         # Keyed by the object: two names bound to one NaN are one object.
         if isinstance(value, (bool, int, float, str)):
@@ -186,7 +197,7 @@ class Scope:
             return self._constants[id(value)]
         if value is None:
             return ir.NONE
-        raise Untranslatable("name", line, {"name": name})
+        raise Untranslatable("name", line, {"name": name or repr(value)})
 
     def resolve(self, func: nodes.NodeNG):
         """The object a callee names (``abs``, ``math.sqrt``, ``isnan`` imported
@@ -231,14 +242,15 @@ class Scope:
                 and self.globals.get(name, getattr(builtins, name, None)) is fn)
 
 
-class Translator(Calls):
+class Translator(Calls, Heap):
     """Symbolic execution of one body or spec expression."""
 
     def __init__(self, scope: Scope, env: Dict[str, ir.Value],
                  old_env: Optional[Dict[str, ir.Value]] = None,
-                 role: str = "body") -> None:
+                 role: str = "body", heap_state: Optional[dict] = None) -> None:
         self.scope = scope
         self.env: Dict[str, object] = dict(env)
+        self.heap: Dict[str, ir.Term] = dict(heap_state or {})
         self.old_env = old_env  # set only while reading a relation
         self.role = role
         self.live: ir.Term = ir.TRUE
@@ -264,7 +276,8 @@ class Translator(Calls):
 
     def finish(self, value: ir.Value, line: int) -> None:
         if not ir.is_false(self.live):
-            self.outcomes.append(ir.Outcome(self.live, value=value, line=line))
+            self.outcomes.append(ir.Outcome(self.live, value=value, line=line,
+                                            heap=dict(self.heap)))
         self.live = ir.FALSE
 
     # ------------------------------------------------------------ statements
@@ -301,6 +314,13 @@ class Translator(Calls):
             self.assign(node.target, self.expr(node.value))
 
     def stmt_AugAssign(self, node: nodes.AugAssign) -> None:
+        if isinstance(node.target, nodes.AssignAttr):
+            obj = self.expr(node.target.expr)
+            current = self.attribute(obj, node.target.attrname, node.target)
+            value = self.binop(node.op[:-1], current, self.expr(node.value), node)
+            if not ir.is_false(self.live):
+                self.assign_attribute(node.target, value, obj)  # the object read once
+            return
         if not isinstance(node.target, nodes.AssignName):
             raise Untranslatable("expression", node.lineno,
                                  {"construct": node.target.as_string() + " " + node.op})
@@ -328,6 +348,15 @@ class Translator(Calls):
             for elt, item in zip(target.elts, value.items):
                 self.assign(elt, item)
             return
+        if isinstance(target, nodes.AssignAttr):
+            self.assign_attribute(target, value)
+            return
+        if isinstance(target, nodes.Subscript) and not isinstance(target.slice, nodes.Slice):
+            container = self.expr(target.value)
+            index = self.expr(target.slice)
+            if isinstance(container, ir.Ref) and container.kind.startswith("list:"):
+                self.set_item(container, index, value, target)
+                return
         raise Untranslatable("expression", target.lineno,
                              {"construct": "assignment to " + target.as_string()})
 
@@ -349,14 +378,14 @@ class Translator(Calls):
         self.raise_when(ir.TRUE, cls, node.lineno, node.as_string())
 
     def stmt_Assert(self, node: nodes.Assert) -> None:
-        ok = truthy(self.expr(node.test))
+        ok = self.truth(self.expr(node.test))
         if node.fail is not None:
             self.harmless(node.fail)
         self.raise_when(ir.not_(ok), AssertionError, node.lineno,
                         "assert " + node.test.as_string())
 
     def stmt_If(self, node: nodes.If) -> None:
-        cond = truthy(self.expr(node.test))
+        cond = self.truth(self.expr(node.test))
         self.branches(cond, lambda: self.block(node.body),
                       lambda: self.block(node.orelse))
 
@@ -364,16 +393,19 @@ class Translator(Calls):
                  orelse: Callable[[], object]):
         """Run both branches from the current state and merge them."""
         start_env, start_live, start_count = self.env, self.live, len(self.outcomes)
+        start_heap = self.heap
 
         self.env, self.live = dict(start_env), ir.conj(start_live, cond)
+        self.heap = dict(start_heap)
         then_value = then()
-        then_env, then_live = self.env, self.live
+        then_env, then_live, then_heap = self.env, self.live, self.heap
         then_ended = len(self.outcomes) != start_count
 
         mid_count = len(self.outcomes)
         self.env, self.live = dict(start_env), ir.conj(start_live, ir.not_(cond))
+        self.heap = dict(start_heap)
         else_value = orelse()
-        else_env, else_live = self.env, self.live
+        else_env, else_live, else_heap = self.env, self.live, self.heap
         else_ended = len(self.outcomes) != mid_count
 
         if not then_ended and not else_ended:
@@ -383,11 +415,12 @@ class Translator(Calls):
         # A branch that cannot fall through contributes nothing to what
         # follows: continue with the other branch's state alone.
         if ir.is_false(then_live) and not ir.is_false(else_live):
-            self.env = else_env
+            self.env, self.heap = else_env, else_heap
             return else_value, else_value
         if ir.is_false(else_live) and not ir.is_false(then_live):
-            self.env = then_env
+            self.env, self.heap = then_env, then_heap
             return then_value, then_value
+        self.heap = self.merge_heaps(cond, then_heap, else_heap)
         merged = {}
         for name in set(then_env) | set(else_env):
             if name in then_env and name in else_env:
@@ -449,6 +482,38 @@ class Translator(Calls):
             return ir.NONE
         return self.scope.global_value(name, line)
 
+    def truth(self, v: ir.Value) -> ir.Term:
+        """Python's truth value of ``v``; a list is true when not empty, an
+        object is true (unless its class says otherwise, which is refused)."""
+        if isinstance(v, ir.Ref):
+            if v.kind.startswith("list:"):
+                return ir.cmp(">", ir.op("len", self.contents(v), sort=ir.INT), ir.const(0))
+            cls = heap.KINDS[v.kind].cls
+            if hasattr(cls, "__bool__") or hasattr(cls, "__len__"):
+                return self.refuse("expression", 0, {
+                    "construct": f"truth of a {cls.__qualname__} (it defines __bool__ or __len__)"})
+            return ir.TRUE
+        return ir.truth(v)
+
+    def expr_List(self, node: nodes.List) -> ir.Value:
+        if any(isinstance(e, nodes.Starred) for e in node.elts):
+            return self.refuse("expression", node.lineno, {"construct": "starred"})
+        return self.list_display([self.expr(e) for e in node.elts], node)
+
+    def expr_Attribute(self, node: nodes.Attribute) -> ir.Value:
+        if self.scope.is_namespace(node.expr):
+            value = self.scope.resolve(node)  # math.pi, a class constant
+            if isinstance(value, (bool, int, float, str)) or value is None:
+                return self.scope.constant(value, node.lineno)
+            return self.refuse("expression", node.lineno,
+                               {"construct": "attribute access " + node.as_string()})
+        obj = self.expr(node.expr)
+        if isinstance(obj, ir.Opt):
+            self.raise_when(obj.none, AttributeError, node.lineno,
+                            f"'NoneType' object has no attribute '{node.attrname}'")
+            obj = obj.value
+        return self.attribute(obj, node.attrname, node)
+
     def expr_Tuple(self, node: nodes.Tuple) -> ir.Value:
         if any(isinstance(e, nodes.Starred) for e in node.elts):
             return self.refuse("expression", node.lineno, {"construct": "starred"})
@@ -457,7 +522,7 @@ class Translator(Calls):
     def expr_UnaryOp(self, node: nodes.UnaryOp) -> ir.Value:
         operand = self.expr(node.operand)
         if node.op == "not":
-            return ir.not_(truthy(operand))
+            return ir.not_(self.truth(operand))
         operand = self.scalar(operand, node, node.op)
         if operand.sort == ir.STR:
             self.raise_when(ir.TRUE, TypeError, node.lineno,
@@ -482,6 +547,14 @@ class Translator(Calls):
 
     def binop(self, op: str, left: ir.Value, right: ir.Value,
               node: nodes.NodeNG) -> ir.Value:
+        if isinstance(left, ir.Ref) or isinstance(right, ir.Ref):
+            if (op == "+" and isinstance(left, ir.Ref) and isinstance(right, ir.Ref)
+                    and left.kind == right.kind and left.kind.startswith("list:")):
+                return self.new_list(left.kind, ir.arith("+", self.contents(left),
+                                                         self.contents(right)))
+            return self.refuse("operator", node.lineno, {
+                "op": op, "types": "lists and objects",
+                "hint": "lists support + with a list of the same kind"})
         if isinstance(left, ir.Tup) or isinstance(right, ir.Tup):
             return self.tuple_binop(op, left, right, node)
         left = self.scalar(left, node, op)
@@ -637,7 +710,7 @@ class Translator(Calls):
         first = self.expr(values[0])
         if len(values) == 1:
             return first
-        t = truthy(first)
+        t = self.truth(first)
         stop = ir.not_(t) if op == "and" else t
         a, b = self.branches(stop, lambda: first,
                              lambda: self.boolop(op, values[1:], node))
@@ -651,7 +724,7 @@ class Translator(Calls):
         return value
 
     def expr_IfExp(self, node: nodes.IfExp) -> ir.Value:
-        cond = truthy(self.expr(node.test))
+        cond = self.truth(self.expr(node.test))
         a, b = self.branches(cond, lambda: self.expr(node.body),
                              lambda: self.expr(node.orelse))
         return self.merged(cond, a, b, node)
@@ -679,6 +752,13 @@ class Translator(Calls):
         return holds
 
     def compare(self, op: str, a: ir.Value, b: ir.Value, node) -> ir.Term:
+        if op in ("is", "is not") and (isinstance(a, ir.Ref) or isinstance(b, ir.Ref)):
+            same = (ir.cmp("==", a.ref, b.ref) if isinstance(a, ir.Ref) and isinstance(b, ir.Ref)
+                    and a.kind == b.kind else ir.FALSE)
+            if isinstance(a, ir.Opt) or isinstance(b, ir.Opt):
+                other = a if isinstance(a, ir.Opt) else b
+                same = ir.FALSE if not ir.is_false(same) else ir.and_(ir.FALSE, other.none)
+            return same if op == "is" else ir.not_(same)
         if op in ("is", "is not"):
             if a is ir.NONE or b is ir.NONE:
                 other = b if a is ir.NONE else a
@@ -694,6 +774,18 @@ class Translator(Calls):
         if op in ("in", "not in"):
             if isinstance(b, ir.Opt):
                 b = self.scalar(b, node, op)  # `x in None` raises TypeError
+            if isinstance(b, ir.Ref) and b.kind.startswith("list:"):
+                sort = heap.elem_sort(b.kind)
+                if isinstance(a, ir.Term) and (a.sort == ir.STR) == (sort == ir.STR) \
+                        and a.sort != ir.FLOAT:
+                    item = a if sort != ir.INT else ir.as_int(a)
+                    if sort == ir.BOOL and a.sort != ir.BOOL:
+                        return self.refuse("mixed", node.lineno, {
+                            "construct": node.as_string(), "shapes": "int in list[bool]"})
+                    found = ir.op("seq_contains", item, self.contents(b), sort=ir.BOOL)
+                else:
+                    found = ir.FALSE  # e.g. a str in a list of ints, None in any list
+                return found if op == "in" else ir.not_(found)
             if isinstance(b, ir.Term) and b.sort == ir.STR:
                 if not (isinstance(a, ir.Term) and a.sort == ir.STR):
                     self.raise_when(ir.TRUE, TypeError, node.lineno,
@@ -740,6 +832,27 @@ class Translator(Calls):
     def equal(self, a: ir.Value, b: ir.Value, item: bool = False) -> ir.Term:
         """``a == b``; ``item`` for the items of tuples and ``in``, which Python
         compares by identity first (a NaN object equals itself there)."""
+        if isinstance(a, ir.Ref) or isinstance(b, ir.Ref):
+            if not (isinstance(a, ir.Ref) and isinstance(b, ir.Ref) and a.kind == b.kind):
+                return ir.FALSE  # a list never equals a tuple, None or a number
+            if a.kind.startswith("list:"):
+                return ir.cmp("==", self.contents(a), self.contents(b))
+            info = heap.KINDS[a.kind]
+            params = getattr(info.cls, "__dataclass_params__", None)
+            if params is not None and params.eq:
+                fields = [f.name for f in dataclasses.fields(info.cls)]
+                if any(f not in info.fields for f in fields):
+                    return self.refuse("mixed", 0, {
+                        "construct": f"== between {info.cls.__qualname__} objects",
+                        "shapes": "fields whose types are not modelled"})
+                # A dataclass compares its fields as a tuple (dataclasses documentation).
+                same = ir.cmp("==", a.ref, b.ref)
+                return ir.or_(same, ir.and_(*(self.equal(
+                    self.read_field(heap.field_key(a.kind, f), a.ref),
+                    self.read_field(heap.field_key(a.kind, f), b.ref), True) for f in fields)))
+            if "__eq__" in vars(info.cls):
+                return self.refuse("call", 0, {"callee": info.cls.__qualname__ + ".__eq__"})
+            return ir.cmp("==", a.ref, b.ref)  # object's == is identity
         if isinstance(a, ir.Opt) or isinstance(b, ir.Opt):
             # None equals only None; otherwise compare the values.
             an, av = _optional(a)
@@ -783,6 +896,23 @@ class Translator(Calls):
             self.raise_when(container.none, TypeError, node.lineno,
                             "'NoneType' object is not subscriptable")
             container = container.value
+        if isinstance(container, ir.Ref) and container.kind.startswith("list:"):
+            if not isinstance(node.slice, nodes.Slice):
+                return self.list_item(container, self.expr(node.slice), node)
+            parts = [None if p is None else self.expr(p)
+                     for p in (node.slice.lower, node.slice.upper, node.slice.step)]
+            parts = [None if p is ir.NONE else p for p in parts]
+            if parts[2] is not None and not (isinstance(parts[2], ir.Const)
+                                             and parts[2].value == 1):
+                return self.refuse("expression", node.lineno,
+                                   {"construct": "list slice with a step other than 1"})
+            if any(p is not None and not (isinstance(p, ir.Term) and p.sort in (ir.INT, ir.BOOL))
+                   for p in parts[:2]):
+                self.raise_when(ir.TRUE, TypeError, node.lineno,
+                                "slice indices must be integers or None")
+                return ir.NONE
+            lower, upper = [None if p is None else ir.as_int(p) for p in parts[:2]]
+            return self.list_slice(container, lower, upper, node)
         if isinstance(container, ir.Term) and container.sort == ir.STR:
             return self.str_subscript(container, node)
         if not isinstance(container, ir.Tup):
@@ -889,6 +1019,8 @@ class Translator(Calls):
             value = inner.expr(node.args[0])
             self.outcomes.extend(inner.outcomes)
             self.live = inner.live
+            if isinstance(value, ir.Ref):
+                return self.snapshot(value, inner.heap)  # what it held before the call
             return value
         if node.keywords or any(isinstance(a, nodes.Starred) for a in node.args):
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
@@ -900,7 +1032,13 @@ class Translator(Calls):
                 subject = subject.value
             args = [self.expr(a) for a in node.args]
             result = None
-            if isinstance(subject, ir.Term) and subject.sort == ir.STR:
+            if isinstance(subject, ir.Ref) and subject.kind.startswith("list:"):
+                result = self.list_method(subject, func.attrname, args, node)
+                if result is None:
+                    return self.refuse("method", node.lineno, {
+                        "method": "list." + func.attrname,
+                        "allowed": "append, extend, pop (lists); " + ", ".join(STR_METHODS)})
+            elif isinstance(subject, ir.Term) and subject.sort == ir.STR:
                 result = self.str_method(func.attrname, subject, args, node)
                 if result is None:
                     return self.refuse("method", node.lineno, {
@@ -941,7 +1079,9 @@ class Translator(Calls):
                 classes.append(type(None))
                 continue
             cls = self.scope.resolve(e)
-            if cls not in (int, bool, float, str, tuple, type(None), object):
+            if not isinstance(cls, type) or (
+                    cls not in (int, bool, float, str, tuple, list, type(None), object)
+                    and not any(info.cls is cls for info in heap.KINDS.values())):
                 return self.refuse("call", node.lineno, {
                     "callee": f"isinstance(..., {e.as_string()})"})
             classes.append(cls)
@@ -957,6 +1097,15 @@ class Translator(Calls):
                 continue
             if isinstance(value, ir.Tup):
                 tests.append(ir.const(cls is tuple))
+                continue
+            if isinstance(value, ir.Ref):
+                if value.kind.startswith("list:"):
+                    tests.append(ir.const(cls is list))
+                else:
+                    tests.append(ir.const(issubclass(heap.KINDS[value.kind].cls, cls)))
+                continue
+            if cls is list or cls not in (int, bool, float, str, tuple):
+                tests.append(ir.FALSE)  # a number or str is no list or modelled class
                 continue
             sort = value.sort
             if cls is bool and sort == ir.INT and not isinstance(value, (ir.Var, ir.Const)):
@@ -1071,10 +1220,13 @@ class SpecValue:
 
 
 def translate_spec(body: nodes.NodeNG, env: Dict[str, ir.Value], scope: Scope,
-                   role: str, old_env: Optional[Dict[str, ir.Value]] = None) -> SpecValue:
-    t = Translator(scope, env, old_env=old_env, role=role)
+                   role: str, old_env: Optional[Dict[str, ir.Value]] = None,
+                   heap_state: Optional[dict] = None) -> SpecValue:
+    """Translate a spec expression; ``heap_state`` is the heap it reads (the
+    post-state one for a relation, where ``old(...)`` reads the pre-state)."""
+    t = Translator(scope, env, old_env=old_env, role=role, heap_state=heap_state)
     value = t.expr(body)
-    if isinstance(value, ir.Tup) or value is ir.NONE:
+    if isinstance(value, (ir.Tup, ir.Ref)) or value is ir.NONE:
         raise SpecError("spec-value", body.lineno,
                         {"role": role, "construct": body.as_string()})
     return SpecValue(holds=ir.and_(t.live, truthy(value)), defined=t.live,
