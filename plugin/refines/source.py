@@ -103,18 +103,23 @@ def runtime_specs(fn: Callable) -> Tuple[Spec, ...]:
     return tuple(reversed(getattr(fn, SPECS_ATTRIBUTE, ())))
 
 
-def _resolves_to(expr: nodes.NodeNG, globals_: dict, target: object) -> bool:
+def _lookup(expr: nodes.NodeNG, globals_: dict):
+    """The object a (dotted) name denotes at module level, or None."""
     dotted = []
     cur = expr
     while isinstance(cur, nodes.Attribute):
         dotted.append(cur.attrname)
         cur = cur.expr
     if not isinstance(cur, nodes.Name):
-        return False
+        return None
     obj = globals_.get(cur.name, getattr(builtins, cur.name, None))
     for attr in reversed(dotted):
         obj = getattr(obj, attr, None)
-    return obj is target
+    return obj
+
+
+def _resolves_to(expr: nodes.NodeNG, globals_: dict, target: object) -> bool:
+    return target is not None and _lookup(expr, globals_) is target
 
 
 def find_function(fn: Callable, path: str) -> Tuple[nodes.FunctionDef, List[bytes]]:
@@ -256,18 +261,9 @@ def param_type(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node):
 
 
 def _hint(node: nodes.NodeNG, globals_: dict):
-    """(sort, optional) for a hint node, or None if it is not modelled."""
+    """(sort, optional, kind) for a hint node, or None if it is not modelled."""
     def lookup(n):
-        dotted = []
-        while isinstance(n, nodes.Attribute):
-            dotted.append(n.attrname)
-            n = n.expr
-        if not isinstance(n, nodes.Name):
-            return None
-        obj = globals_.get(n.name, getattr(builtins, n.name, None))
-        for attr in reversed(dotted):
-            obj = getattr(obj, attr, None)
-        return obj
+        return _lookup(n, globals_)
 
     def is_none(n):
         return isinstance(n, nodes.Const) and n.value is None
