@@ -8,6 +8,8 @@ change through one is seen through the other), and the dataclasses
 documentation (a dataclass compares its fields as a tuple).
 """
 
+import pytest
+
 from refines.verdict import PROVED, REFUTED, UNKNOWN
 
 from helpers import check_one
@@ -181,3 +183,59 @@ def test_attributes_without_a_modelled_hint_are_unknown_and_named(tmp_path):
         ''', header="from dataclasses import dataclass\nfrom refines import refines, old\n\n")
     assert r.verdict == UNKNOWN
     assert "items" in r.reason and "Shelf" in r.reason
+
+
+def test_plus_equals_extends_the_callers_list_in_place(tmp_path):
+    # list.__iadd__ extends in place (list documentation, "Mutable Sequence Types").
+    r = one(tmp_path, '''
+        @refines(lambda xs, ys, result: xs == old(xs), assuming=lambda xs, ys: xs is not ys)
+        def grow(xs: list[int], ys: list[int]) -> None:
+            xs += ys
+        ''')
+    assert r.verdict == REFUTED
+    assert r.counterexample.confirmed
+
+
+def test_assigning_a_frozen_dataclass_field_raises(tmp_path):
+    r = check_one(tmp_path, '''
+        @dataclass(frozen=True)
+        class Ticket:
+            seat: int
+
+        @refines(lambda t, result: True, raises={FrozenInstanceError: lambda t: True})
+        def move(t: Ticket) -> None:
+            t.seat = 3
+        ''', header="from dataclasses import dataclass, FrozenInstanceError\n"
+                    "from refines import refines, old\n\n")
+    assert r.verdict == PROVED, r.reason or r.counterexample
+
+
+@pytest.mark.parametrize("body, params", [
+    ("return xs < ys", "xs: list[int], ys: list[int]"),  # list ordering
+    ("return 1.5 in xs", "xs: list[int], ys: list[int]"),  # 1.0 in [1] is True
+    ("return xs == ys", "xs: list[int], ys: list[str]"),  # [] == [] across kinds
+])
+def test_list_cases_not_modelled_are_unknown_not_guessed(tmp_path, body, params):
+    r = one(tmp_path, f'''
+        @refines(lambda xs, ys, result: result is False, raises={{TypeError: lambda xs, ys: True}})
+        def f({params}) -> bool:
+            {body}
+        ''')
+    assert r.verdict == UNKNOWN, (r.verdict, r.reason)
+
+
+def test_a_dataclass_with_its_own_eq_is_not_compared_field_by_field(tmp_path):
+    r = check_one(tmp_path, '''
+        @dataclass
+        class Pass:
+            holder: str
+            visits: int
+
+            def __eq__(self, other):
+                return self.holder == other.holder
+
+        @refines(lambda a, b, result: result == (a.holder == b.holder and a.visits == b.visits))
+        def same(a: Pass, b: Pass) -> bool:
+            return a == b
+        ''', header="from dataclasses import dataclass\nfrom refines import refines, old\n\n")
+    assert r.verdict == UNKNOWN, (r.verdict, r.reason)

@@ -175,6 +175,11 @@ class Heap:
                 "construct": target.as_string(),
                 "shapes": f"its hint and the value assigned ({ir.render_value(value)})"})
             return
+        params = getattr(KINDS[obj.kind].cls, "__dataclass_params__", None)
+        if params is not None and params.frozen:
+            self.raise_when(ir.TRUE, dataclasses.FrozenInstanceError, target.lineno,
+                            f"cannot assign to field '{target.attrname}'")
+            return
         if current.sort != ir.BOOL and value.sort == ir.BOOL:
             value = ir.as_int(value)
         self.write_field(field_key(obj.kind, target.attrname), obj.ref, value)

@@ -225,6 +225,15 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
             sort, optional, kind = param_type(arg.name, ann, globals_, fn_node)
             params.append(ir.Var(arg.name, sort, optional, kind))
             kinds.append(kind_name)
+    lists = sorted({p.kind for p in params if p.kind.startswith("list:")})
+    if len(lists) > 1:
+        # One list object can fit two such hints ([] is a list[int] and a
+        # list[str]; [True] a list[bool] and a list[int]); the model keeps
+        # kinds apart, so it would miss that aliasing.
+        first = next(p for p in params if p.kind == lists[1])
+        raise Untranslatable("param-type", fn_node.lineno, {
+            "name": first.name, "hint_text": heap.describe(lists[1]) + " beside a "
+            + heap.describe(lists[0]) + " parameter (one list may be both)"})
     return tuple(params), tuple(kinds)
 
 

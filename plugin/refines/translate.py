@@ -325,6 +325,16 @@ class Translator(Calls, Heap):
             raise Untranslatable("expression", node.lineno,
                                  {"construct": node.target.as_string() + " " + node.op})
         current = self.read(node.target.name, node.lineno)
+        if isinstance(current, ir.Ref):
+            other = self.expr(node.value)
+            # `xs += ys` extends xs in place (list.__iadd__): the caller sees it.
+            if node.op == "+=" and current.kind.startswith("list:") and \
+                    self.list_method(current, "extend", [other], node) is not None:
+                return
+            self.refuse("operator", node.lineno, {
+                "op": node.op, "types": "lists and objects",
+                "hint": "`+=` with a list of the same kind is modelled"})
+            return
         value = self.binop(node.op[:-1], current, self.expr(node.value), node)
         self.assign(node.target, value)
 
@@ -783,8 +793,14 @@ class Translator(Calls, Heap):
                         return self.refuse("mixed", node.lineno, {
                             "construct": node.as_string(), "shapes": "int in list[bool]"})
                     found = ir.op("seq_contains", item, self.contents(b), sort=ir.BOOL)
+                elif isinstance(a, ir.Term) and a.sort == ir.FLOAT and sort != ir.STR:
+                    return self.refuse("mixed", node.lineno, {
+                        "construct": node.as_string(), "shapes": "a float in a list of ints"})
+                elif isinstance(a, (ir.Ref, ir.Tup, ir.Opt)):
+                    return self.refuse("mixed", node.lineno, {
+                        "construct": node.as_string(), "shapes": "this value in a list"})
                 else:
-                    found = ir.FALSE  # e.g. a str in a list of ints, None in any list
+                    found = ir.FALSE  # a str in a list of ints (or the reverse), None
                 return found if op == "in" else ir.not_(found)
             if isinstance(b, ir.Term) and b.sort == ir.STR:
                 if not (isinstance(a, ir.Term) and a.sort == ir.STR):
@@ -806,6 +822,10 @@ class Translator(Calls, Heap):
             return same if op == "==" else ir.not_(same)
         if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
             return self.lexicographic(op, list(a.items), list(b.items), node)
+        if isinstance(a, ir.Ref) or isinstance(b, ir.Ref):
+            return self.refuse("operator", node.lineno, {
+                "op": op, "types": "lists and objects",
+                "hint": "ordering lists (and objects) is not modelled yet"})
         a, b = self.scalar(a, node, op), self.scalar(b, node, op)
         if (a.sort == ir.STR) != (b.sort == ir.STR):
             # Ordering a str against a number raises (Language Reference,
@@ -833,13 +853,22 @@ class Translator(Calls, Heap):
         """``a == b``; ``item`` for the items of tuples and ``in``, which Python
         compares by identity first (a NaN object equals itself there)."""
         if isinstance(a, ir.Ref) or isinstance(b, ir.Ref):
-            if not (isinstance(a, ir.Ref) and isinstance(b, ir.Ref) and a.kind == b.kind):
+            if isinstance(a, ir.Ref) and isinstance(b, ir.Ref) and a.kind != b.kind:
+                # [] == [] and [1] == [True] hold across kinds; objects may
+                # define __eq__ across classes: not modelled.
+                return self.refuse("mixed", 0, {
+                    "construct": "== between different kinds of lists or objects",
+                    "shapes": f"{heap.describe(a.kind)} and {heap.describe(b.kind)}"})
+            if not (isinstance(a, ir.Ref) and isinstance(b, ir.Ref)):
                 return ir.FALSE  # a list never equals a tuple, None or a number
             if a.kind.startswith("list:"):
                 return ir.cmp("==", self.contents(a), self.contents(b))
             info = heap.KINDS[a.kind]
             params = getattr(info.cls, "__dataclass_params__", None)
-            if params is not None and params.eq:
+            generated = getattr(getattr(info.cls.__eq__, "__code__", None), "co_filename",
+                                "") == "<string>"
+            if params is not None and params.eq and generated and all(
+                    f.compare for f in dataclasses.fields(info.cls)):
                 fields = [f.name for f in dataclasses.fields(info.cls)]
                 if any(f not in info.fields for f in fields):
                     return self.refuse("mixed", 0, {
@@ -850,7 +879,7 @@ class Translator(Calls, Heap):
                 return ir.or_(same, ir.and_(*(self.equal(
                     self.read_field(heap.field_key(a.kind, f), a.ref),
                     self.read_field(heap.field_key(a.kind, f), b.ref), True) for f in fields)))
-            if "__eq__" in vars(info.cls):
+            if info.cls.__eq__ is not object.__eq__:
                 return self.refuse("call", 0, {"callee": info.cls.__qualname__ + ".__eq__"})
             return ir.cmp("==", a.ref, b.ref)  # object's == is identity
         if isinstance(a, ir.Opt) or isinstance(b, ir.Opt):
@@ -1079,6 +1108,9 @@ class Translator(Calls, Heap):
                 classes.append(type(None))
                 continue
             cls = self.scope.resolve(e)
+            if isinstance(cls, type) and cls not in (int, bool, float, str, tuple, list,
+                                                     type(None), object):
+                heap.class_kind(cls)  # registered here too: no order dependence
             if not isinstance(cls, type) or (
                     cls not in (int, bool, float, str, tuple, list, type(None), object)
                     and not any(info.cls is cls for info in heap.KINDS.values())):
