@@ -22,7 +22,7 @@ import z3
 
 from refines import fpmath, heap, ir, precondition, replay, solve, strmath
 from refines.errors import SpecError, Untranslatable, format_message
-from refines.lower import Lowering
+from refines.lower import Lowering, read_int
 from refines.obligation import Spec, translate_spec_for, violations
 from refines.source import Obligation
 from refines.translate import Scope, translate_body
@@ -36,6 +36,8 @@ from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Res
 # BACKSTOP times the budget stops queries that spend their units slowly.
 RLIMIT_PER_SECOND = 8_000_000
 BACKSTOP = 2.0
+# The share of the budget one query of the precondition's clean-up may spend.
+PER_SIMPLIFICATION = 0.05
 
 
 class Budget:
@@ -61,6 +63,10 @@ class Solver:
         # Which engine answers each query (z3 alone, or a portfolio for float
         # queries): solve.py. Every query spends from the one budget.
         self.runner = solve.Runner(self.ctx, budget, RLIMIT_PER_SECOND)
+        # Seconds of budget one query may spend at most (None: all that is
+        # left); set while the precondition is made readable, where an
+        # undecided query only means a simplification is not made.
+        self.per_query = None
 
     def check(self, *terms: ir.Term):
         """``(status, model, why unknown)`` for the conjunction of ``terms``.
@@ -70,7 +76,20 @@ class Solver:
             return z3.unknown, None, "the solver budget ran out"
         assertions = [self.lower(t) for t in terms]
         assertions += self.lower.definitions  # of fresh constants (lower.Lowering)
-        return self.runner.check(assertions)
+        if self.per_query is None:
+            return self.runner.check(assertions)
+        # A slice of what is left, so that one hard query cannot spend it all.
+        whole = self.budget
+        part = Budget(0)
+        part.units = min(whole.units, int(self.per_query * RLIMIT_PER_SECOND))
+        part.deadline = min(whole.deadline, time.perf_counter() + self.per_query * BACKSTOP)
+        before = part.units
+        self.runner.budget = part
+        try:
+            return self.runner.check(assertions)
+        finally:
+            self.runner.budget = whole
+            whole.units -= before - part.units
 
     def inputs(self, model: z3.ModelRef, params) -> dict:
         """The arguments a model gives; parameters whose references are equal
@@ -100,7 +119,7 @@ class Solver:
         z = model.eval(self.lower(v), model_completion=True)
         if v.sort == ir.BOOL:
             return z3.is_true(z)
-        return z.as_long()
+        return read_int(z)
 
 
     def _items(self, model, seq: z3.ExprRef, elem: str) -> list:
@@ -109,7 +128,7 @@ class Solver:
         for i in range(n):
             z = model.eval(seq[i], model_completion=True)
             out.append(strmath.read(model, z) if elem == ir.STR
-                       else z3.is_true(z) if elem == ir.BOOL else z.as_long())
+                       else z3.is_true(z) if elem == ir.BOOL else read_int(z))
         return out
 
     def _object(self, model, v: ir.Ref, heap_state: dict, made: dict) -> Any:
@@ -131,11 +150,6 @@ class Solver:
         for attr in info.skipped:  # not modelled: its default, if the class has one
             object.__setattr__(obj, attr, getattr(info.cls, attr, None))
         return obj
-
-
-def _rlimit_spent(s: z3.Solver) -> int:
-    stats = s.statistics()
-    return int(stats.get_key_value("rlimit count")) if "rlimit count" in stats.keys() else 0
 
 
 def check(ob: Obligation, timeout: float) -> Result:
@@ -186,6 +200,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         result.reason, result.hint, result.message_key = ill
         return result
 
+    result.notes.extend("assumed: " + a for a in behaviour.assumptions)
     found = violations(behaviour, spec)
     status, model, why = solver.check(spec.assuming.holds,
                                       ir.or_(*(v.term for v in found)))
@@ -213,7 +228,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     inputs = solver.inputs(model, ob.params)
     predicted = _predicted(solver, model, behaviour)
     call = replay.call_text(ob, inputs)
-    shown = {k: repr(v) for k, v in inputs.items()}
+    shown = {k: replay.shown(v) for k, v in inputs.items()}
     pre = replay.before(inputs)
     actual = replay.run(ob, inputs)
     judgement = replay.judge(ob, inputs, actual, pre)
@@ -244,6 +259,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
                                     "(" + next(o.unmodelled for o in behaviour.outcomes
                                                if o.unmodelled) + ")")
         return result
+    solver.per_query = max(0.05, budget.seconds * PER_SIMPLIFICATION)
     try:
         pre = precondition.exact(ob, behaviour, spec, solver)
     except Exception as exc:  # noqa: BLE001 -- the refutation stands on its own

@@ -1,4 +1,4 @@
-"""Run the three benchmarks and print a plain-text summary (``make bench``).
+"""Run the four benchmarks and print a plain-text summary (``make bench``).
 
 Run from the repository root: ``python tests/benchmarks/run_all.py``;
 ``--quick`` takes fewer repeats (a smoke run, not numbers to quote).
@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import os
 import platform
+import statistics
 import sys
 import time
 from typing import Optional, Sequence
@@ -18,6 +19,7 @@ import z3
 import bench_overhead
 import bench_rlimit
 import bench_sequential_ifs
+import bench_solver_strategy
 from bench_overhead import ms
 
 
@@ -33,6 +35,8 @@ def machine() -> str:
 def main(argv: Optional[Sequence[str]] = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="few repeats: a smoke run")
+    parser.add_argument("--no-strategy", action="store_true",
+                        help="skip the float solver strategy benchmark (the longest, ~10 min)")
     args = parser.parse_args(argv)
     overhead_repeats, seq_repeats, rl_repeats = (3, 3, 1) if args.quick else (20, 15, 3)
 
@@ -49,6 +53,11 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
     print("=" * 30, "3. rlimit units per second", "=" * 30)
     rlimit = bench_rlimit.run(repeats=rl_repeats)
     print()
+    strategy = None
+    if not args.no_strategy:
+        print("=" * 30, "4. solver strategy for floats", "=" * 30)
+        strategy = bench_solver_strategy.run(quick=args.quick)
+        print()
 
     print("=" * 30, "summary", "=" * 30)
     ratios = overhead["ratio_per_case_warm"]
@@ -96,6 +105,14 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
         print(f"  {kind:<13} {rate:>14,.0f}")
     print(f"  {'all':<13} {rlimit['overall']:>14,.0f}   (slowest run "
           f"{rlimit['slowest']:,.0f}; prove.RLIMIT_PER_SECOND = {rlimit['current']:,})")
+    if strategy is not None:
+        print()
+        print("solver strategy, full check at 10 s (median seconds, verdict): "
+              "z3 alone -> chosen strategy")
+        for case, alone, mine, _ in strategy["rows"]:
+            print(f"  {case.label:<22} {alone.verdict_text():<20}"
+                  f"{statistics.median(alone.seconds):>7.2f} -> "
+                  f"{mine.verdict_text():<20}{statistics.median(mine.seconds):>7.2f}")
     print(f"\ntotal benchmark time: {time.perf_counter() - started:.0f} s")
     return 0
 
