@@ -17,6 +17,18 @@ through its bit pattern, and floats compare bit-exactly (``struct.pack('<d')``
 -- so 0.0 and -0.0 differ), except that any NaN matches any NaN: z3 has one
 NaN without sign or payload, so the sign of a NaN is not compared.
 
+Strings are exact too: a str input becomes the z3 string with the same code
+points (``strmath.const``), a str the translation predicts is read back code
+point by code point (``read_string``), and strs match only strs.
+
+Some operations lower to a fresh constant and a definition that pins it
+(``str.find``); on concrete inputs the evaluator gives each such constant its
+one value (by the solver, or by trying candidates where the solver gives up)
+and fails when a definition admits none or several.
+
+``StatementGenerator`` is the statement skeleton the seeded program
+generators of the differential tests (int, float, str) share.
+
 Predictions are computed in a private ``z3.Context`` per translated function:
 every z3 object of one evaluation comes from that context (mixing contexts can
 crash the interpreter).
@@ -25,6 +37,7 @@ crash the interpreter).
 from __future__ import annotations
 
 import atexit
+import ctypes
 import importlib.util
 import itertools
 import math
@@ -40,7 +53,7 @@ from typing import Any, Callable, List, Optional, Sequence, Tuple
 
 import z3
 
-from refines import fpmath, ir
+from refines import fpmath, ir, strmath
 from refines.lower import Lowering
 from refines.source import find_function, read_params
 from refines.translate import Scope, translate_body
@@ -94,6 +107,10 @@ class Evaluator:
         self.guards = [self.lower(o.guard) for o in behaviour.outcomes]
         self.values = [None if not o.returns else self._lower_value(o.value)
                        for o in behaviour.outcomes]
+        # Some ops lower to a fresh constant pinned by a definition (str.find);
+        # on concrete inputs the solver gives each its one value.
+        self.definitions = list(getattr(self.lower, "definitions", ()))
+        self._defined: dict = {}
 
     def _lower_value(self, v: ir.Value):
         if isinstance(v, ir.Tup):
@@ -110,15 +127,89 @@ class Evaluator:
             if type(value) is not float:  # the annotation says float: no silent conversion
                 raise TypeError(f"a float parameter needs a float input, not {value!r}")
             return fpmath.const(value, self.ctx)  # the exact binary64 value
+        if sort == ir.STR:
+            if type(value) is not str:
+                raise TypeError(f"a str parameter needs a str input, not {value!r}")
+            return strmath.const(value, self.ctx)  # code point for code point
         return z3.IntVal(int(value), self.ctx)
 
     def substitution(self, args: Sequence[Any]):
-        return [(var, self._constant(a, p.sort))
-                for var, a, p in zip(self.vars, args, self.behaviour.params)]
+        subst = [(var, self._constant(a, p.sort))
+                 for var, a, p in zip(self.vars, args, self.behaviour.params)]
+        if self.definitions:
+            key = tuple((type(a), a) for a in args)
+            if key not in self._defined:
+                self._defined[key] = self._defined_constants(subst)
+            subst = subst + self._defined[key]
+        return subst
+
+    def _defined_constants(self, subst):
+        """The values the definitions give their fresh constants on these
+        inputs. A definition must pin its constant to exactly one value for
+        every pre-state: fail if it admits none or several.
+
+        One constant at a time, each once the constants its definition reads
+        are known (a find inside another find's arguments): with the inputs
+        substituted, each query has a single unknown, which z3 decides at once,
+        while solving them all together can leave it undecided."""
+        known = list(subst)
+        pending = list(self.definitions)
+        while pending:
+            progress = False
+            for d in list(pending):
+                d_now = z3.simplify(z3.substitute(d, *known))
+                if _reads(d_now, z3.Z3_OP_SEQ_POWER):
+                    # simplify leaves str.power with a count of 3 or more; the
+                    # solver is then incomplete on str.replace_all around it
+                    # ("incomplete (theory seq)", z3 5.4.1). The model evaluator
+                    # unrolls it (without completing the free constant).
+                    d_now = z3.simplify(z3.Model(ctx=self.ctx).eval(d_now, model_completion=False))
+                free = free_constants(d_now)
+                if len(free) > 1:
+                    continue
+                pending.remove(d)
+                progress = True
+                if not free:
+                    assert z3.is_true(d_now), f"a definition fails here: {d}"
+                    continue
+                (fresh,) = free
+                known.append((fresh, self._pinned(fresh, d_now)))
+            assert progress, f"definitions that depend on each other: {pending}"
+        return known[len(subst):]
+
+    def _pinned(self, fresh, definition):
+        """The one value of ``fresh`` that ``definition`` (which reads nothing
+        else) allows. The solver first; where it gives up (long strings built
+        by str.power and str.replace_all: "incomplete (theory seq)"), every
+        candidate from below -1 to past the longest string in the definition,
+        decided by evaluation -- exactly one must hold."""
+        solver = z3.Solver(ctx=self.ctx)
+        solver.set("rlimit", _DEFINITION_RLIMIT)
+        solver.add(definition)
+        status = solver.check()
+        assert status != z3.unsat, f"no value of {fresh} meets its definition here"
+        if status == z3.sat:
+            value = solver.model().eval(fresh, model_completion=True)
+            solver.add(fresh != value)
+            status = solver.check()
+            assert status != z3.sat, f"the definition does not pin {fresh} to one value"
+            if status == z3.unsat:
+                return value
+        longest = max([len(read_string(t)) for t in _subterms(definition)
+                       if z3.is_string_value(t)] + [0])
+        hits = [k for k in range(-4, longest + 4)
+                if self.concrete(z3.substitute(definition, (fresh, z3.IntVal(k, self.ctx))),
+                                 None) is True]
+        assert len(hits) == 1, f"the definition of {fresh} holds for {hits} here"
+        return z3.IntVal(hits[0], self.ctx)
 
     def concrete(self, e: z3.ExprRef, subst) -> Any:
         """The Python value of ``e`` once the parameters are replaced by ``subst``."""
         e = z3.simplify(z3.substitute(e, *subst)) if subst else z3.simplify(e)
+        if not z3.is_const(e):
+            # One pass can leave string comparisons half done, e.g. ``"" < "ab"``
+            # becomes ``Not("" == "ab")`` (measured with z3 5.4.1): a second one ends them.
+            e = z3.simplify(e)
         if z3.is_true(e):
             return True
         if z3.is_false(e):
@@ -127,6 +218,18 @@ class Evaluator:
             return e.as_long()
         if z3.is_fp_value(e):
             return read_float(e)
+        if z3.is_string_value(e):
+            return read_string(e)
+        if _only_unrolling_left(e):
+            # simplify does not unroll str.power beyond a count of 2 (measured
+            # with z3 5.4.1); the model evaluator does, and the term is closed.
+            e = z3.simplify(z3.Model(ctx=self.ctx).eval(e, model_completion=True))
+            if z3.is_string_value(e):
+                return read_string(e)
+            if z3.is_int_value(e):
+                return e.as_long()
+            if z3.is_true(e) or z3.is_false(e):
+                return z3.is_true(e)
         raise AssertionError(f"did not evaluate to a constant: {e}")
 
     def _value(self, lowered, subst) -> Any:
@@ -139,7 +242,10 @@ class Evaluator:
         if kind == ir.FLOAT:
             assert type(v) is float, f"a float term evaluated to {v!r}"
             return v
-        assert type(v) is not float, f"an {kind} term evaluated to the float {v!r}"
+        if kind == ir.STR:
+            assert type(v) is str, f"a str term evaluated to {v!r}"
+            return v
+        assert type(v) not in (float, str), f"an {kind} term evaluated to {v!r}"
         return bool(v) if kind == ir.BOOL else int(v)
 
     def holding(self, args: Sequence[Any]) -> List[int]:
@@ -178,6 +284,93 @@ def read_float(e: z3.FPNumRef) -> float:
     bits = z3.simplify(z3.fpToIEEEBV(e, ctx=ctx))
     assert z3.is_bv_value(bits) and bits.size() == 64, f"not a binary64 numeral: {e}"
     return struct.unpack("<d", struct.pack("<Q", bits.as_long()))[0]
+
+
+# Resource units for deciding one definition on concrete inputs by the solver
+# (z3's rlimit is reproducible, a timeout is not); past them, candidates.
+_DEFINITION_RLIMIT = 2_000_000
+
+
+def _reads(e: z3.ExprRef, kind: int) -> bool:
+    """Whether ``e`` applies an operation of this kind somewhere."""
+    seen, stack = set(), [e]
+    while stack:
+        t = stack.pop()
+        if t.get_id() in seen or not z3.is_app(t):
+            continue
+        seen.add(t.get_id())
+        if t.decl().kind() == kind:
+            return True
+        stack.extend(t.children())
+    return False
+
+
+def _subterms(e: z3.ExprRef) -> list:
+    seen, out, stack = set(), [], [e]
+    while stack:
+        t = stack.pop()
+        if t.get_id() in seen:
+            continue
+        seen.add(t.get_id())
+        out.append(t)
+        if z3.is_app(t):
+            stack.extend(t.children())
+    return out
+
+
+def free_constants(e: z3.ExprRef) -> list:
+    """The uninterpreted constants ``e`` still reads."""
+    found, seen, stack = {}, set(), [e]
+    while stack:
+        t = stack.pop()
+        if t.get_id() in seen:
+            continue
+        seen.add(t.get_id())
+        if z3.is_const(t) and t.decl().kind() == z3.Z3_OP_UNINTERPRETED:
+            found[t.get_id()] = t
+        elif z3.is_app(t):
+            stack.extend(t.children())
+    return list(found.values())
+
+
+def read_string(e: z3.SeqRef) -> str:
+    """The Python str of a z3 string value, code point for code point
+    (``as_string`` escapes characters and is not meant to be inverted)."""
+    assert z3.is_string_value(e), f"not a string value: {e}"
+    ref, ast = e.ctx.ref(), e.as_ast()
+    n = z3.Z3_get_string_length(ref, ast)
+    buf = (ctypes.c_uint * n)()
+    z3.Z3_get_string_contents(ref, ast, n, buf)
+    return "".join(map(chr, buf))
+
+
+# Operations whose value z3 leaves unspecified somewhere (division by zero):
+# a term holding one is never handed to the model evaluator, which would
+# complete it with an arbitrary value.
+_UNSPECIFIED_SOMEWHERE = {z3.Z3_OP_DIV, z3.Z3_OP_IDIV, z3.Z3_OP_MOD, z3.Z3_OP_REM,
+                          z3.Z3_OP_UNINTERPRETED}
+
+
+def _only_unrolling_left(e: z3.ExprRef) -> bool:
+    """Whether ``e`` is a closed term that ``simplify`` left unevaluated only
+    for a ``str.power``: no free names, no float operations, no operation that
+    is unspecified anywhere."""
+    seen, stack, power = set(), [e], False
+    while stack:
+        t = stack.pop()
+        if t.get_id() in seen:
+            continue
+        seen.add(t.get_id())
+        if z3.is_fp(t) or z3.is_fprm(t):
+            return False
+        if not z3.is_app(t):
+            return False  # a bound variable or a quantifier
+        kind = t.decl().kind()
+        if kind in _UNSPECIFIED_SOMEWHERE:
+            return False
+        power = power or kind == z3.Z3_OP_SEQ_POWER
+        stack.extend(t.children())
+    return power
 
 
 def distinct_objects(args: Sequence[Any]) -> Tuple[Any, ...]:
@@ -265,6 +458,8 @@ def _same_value(a: Any, b: Any) -> bool:
         return a is b
     if type(a) is float or type(b) is float:
         return type(a) is float and type(b) is float and same_float(a, b)
+    if type(a) is str or type(b) is str:
+        return type(a) is str and type(b) is str and a == b
     if type(a) not in (int, bool) or type(b) not in (int, bool):
         return False
     if type(b) is bool and type(a) is not bool:
@@ -298,6 +493,9 @@ def grid(*axes: Sequence[Any]) -> List[Tuple[Any, ...]]:
 
 SMALL = (-3, -1, 0, 1, 2, 4)
 BOOLS = (False, True)
+# Strings a grid over a str parameter visits by default: empty, repeats, a
+# non-ASCII and an astral code point.
+STRS = ("", "a", "ab", "ba", "aab", "\u00e9", "a\U0001F600")
 # IEEE 754 corner cases a grid over a float parameter visits by default.
 FLOATS = (0.0, -0.0, 1.0, -2.5, 0.1, 5e-324, 1.7976931348623157e308,
           float("inf"), float("-inf"), float("nan"))
@@ -306,8 +504,8 @@ FLOATS = (0.0, -0.0, 1.0, -2.5, 0.1, 5e-324, 1.7976931348623157e308,
 def inputs_for(params: Sequence[ir.Var], ints: Sequence[int] = SMALL,
                floats: Sequence[float] = FLOATS) -> List[Tuple]:
     """All combinations of small values for the parameters' sorts."""
-    axes = [BOOLS if p.sort == ir.BOOL else floats if p.sort == ir.FLOAT else ints
-            for p in params]
+    axes = [BOOLS if p.sort == ir.BOOL else floats if p.sort == ir.FLOAT
+            else STRS if p.sort == ir.STR else ints for p in params]
     return grid(*axes)
 
 
@@ -318,6 +516,99 @@ def check_agrees(source: str, ints: Sequence[int] = SMALL, name: str = "f",
     bad = t.agrees(*inputs_for(t.behaviour.params, ints, floats))
     assert not bad, "\n".join(bad[:10]) + f"\n{len(bad)} mismatches\n{t.behaviour!r}"
     return t
+
+
+# ---- the statement skeleton of the random program generators
+
+
+class StatementGenerator:
+    """What the seeded program generators of the differential tests share: a
+    block of statements -- ``if``/``elif``/``else`` (what follows sees the
+    names assigned on every branch that goes on), ``assert``, early
+    ``return``, ``raise`` and ``pass`` -- around the statements each one writes
+    itself. A subclass says which statements there are and how often
+    (``statement_kinds``), writes the others (``simple_statement``), the tests
+    of ``if`` and ``assert`` and the returned expression (``result``), and has
+    ``rnd``, ``depth``, ``flow`` and ``assigned_anywhere``.
+
+    The random draws happen in one fixed order, so a seed gives one program:
+    the kind of each statement, then what the kind draws.
+    """
+
+    RAISES = ("ValueError", "QuotaExceeded", 'ValueError("refused")',
+              "QuotaExceeded(f'over by {x}')")
+
+    def statement_kinds(self, depth: int) -> Tuple[Sequence[str], Sequence[float]]:
+        """The kinds of statement and their weights (``if`` only for depth > 0)."""
+        raise NotImplementedError
+
+    def simple_statement(self, kind: str, pad: str, top: bool, defined: set,
+                         lines: List[str]) -> bool:
+        """Append a statement of ``kind`` other than if/assert/return/raise/pass,
+        updating ``defined`` (and ``assigned_anywhere``); False if it does not
+        write one (the statement is then ``pass``)."""
+        return False
+
+    def if_test(self, defined: set) -> str:
+        return self.bool_expr(self.depth - 1, defined)
+
+    def assert_test(self, defined: set) -> str:
+        return self.bool_expr(self.depth - 1, defined)
+
+    def result(self, defined: set) -> str:
+        raise NotImplementedError
+
+    def block(self, indent: int, depth: int, defined: set,
+              length: int) -> Tuple[List[str], set, bool]:
+        """Lines, the names assigned on every path that goes on after the block,
+        and whether every path through it ends (return/raise)."""
+        r = self.rnd
+        pad = "    " * indent
+        top = indent == 1
+        lines: List[str] = []
+        defined = set(defined)
+        for _ in range(length):
+            kinds, weights = self.statement_kinds(depth)
+            kind = r.choices(kinds, weights)[0]
+            if self.simple_statement(kind, pad, top, defined, lines):
+                continue
+            if kind == "if":
+                branches = r.choice((1, 2, 2, 3))
+                has_else = r.random() < 0.6
+                going_on: List[set] = []  # assigned sets of branches that fall through
+                for i in range(branches + has_else):
+                    if i < branches:
+                        lines.append(f"{pad}{'if' if i == 0 else 'elif'} {self.if_test(defined)}:")
+                    else:
+                        lines.append(f"{pad}else:")
+                    body, out, done = self.block(indent + 1, depth - 1, defined, r.randint(1, 3))
+                    lines.extend(body)
+                    if not done:
+                        going_on.append(out)
+                if not has_else:
+                    going_on.append(defined)
+                if not going_on:
+                    return lines, defined, True
+                defined = set.intersection(*going_on)
+            elif kind == "assert":
+                lines.append(f"{pad}assert {self.assert_test(defined)}")
+            elif kind == "return" and depth < self.depth:
+                lines.append(f"{pad}return {self.result(defined)}")
+                return lines, defined, True
+            elif kind == "raise" and depth < self.depth:
+                lines.append(f"{pad}raise {r.choice(self.RAISES)}")
+                return lines, defined, True
+            else:
+                lines.append(f"{pad}pass")
+        return lines, defined, False
+
+    def body(self) -> List[str]:
+        """The lines of a function body; most bodies that can fall off the end
+        return something there."""
+        body, defined, ended = self.block(1, self.depth, set(), self.rnd.randint(2, 5))
+        if not ended and self.rnd.random() < 0.9:
+            body.append(f"    return {self.result(defined)}")
+        return body
 
 
 # ---- a reference evaluator for IR terms, with CPython's own operators
@@ -339,6 +630,12 @@ PY_OPS = {
     "fabs": math.fabs, "min": min, "max": max, "sqrt": math.sqrt,
     "copysign": math.copysign, "isnan": math.isnan, "isinf": math.isinf,
     "isfinite": math.isfinite, "trunc": int, "floor": math.floor, "ceil": math.ceil,
+    # str: Python's own operations and methods
+    "len": len, "getitem": operator.getitem, "slice": lambda s, a, b: s[a:b],
+    "slice_from": lambda s, a: s[a:], "slice_to": lambda s, b: s[:b],
+    "contains": lambda needle, hay: needle in hay, "startswith": str.startswith,
+    "endswith": str.endswith, "find": str.find, "rfind": str.rfind,
+    "repeat": operator.mul, "replace": str.replace, "str_of_int": str,
 }
 
 

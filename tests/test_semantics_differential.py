@@ -23,7 +23,7 @@ import pytest
 
 from refines.errors import Untranslatable
 
-from semantics_helpers import translated
+from semantics_helpers import StatementGenerator, translated
 
 HEADER = '''\
 LIMIT = 7
@@ -41,7 +41,7 @@ FIXED_INPUTS = [(0, 0, False), (1, -1, True), (-2, 3, False), (7, 2, True),
                 (2, 0, True), (0, 5, False), (-1, -1, True), (3, 3, False)]
 
 
-class ProgramGenerator:
+class ProgramGenerator(StatementGenerator):
     """Random source text of functions ``f(x: int, y: int, b: bool)``.
 
     Two ways of using locals:
@@ -159,72 +159,37 @@ class ProgramGenerator:
             d, defined)
 
     # ------------------------------------------------------------ statements
+    # (if/elif/else, assert, return, raise: semantics_helpers.StatementGenerator)
 
-    def block(self, indent: int, depth: int, defined: Set[str],
-              length: int) -> Tuple[List[str], Set[str], bool]:
-        """Lines of a block, the names assigned on every path through it that
-        goes on after it, and whether every path through it ends (return/raise)."""
+    def statement_kinds(self, depth: int):
+        return (["assign", "aug", "unpack", "if", "assert", "return", "raise", "pass"],
+                [5, 2, 1, 3 if depth > 0 else 0, 1, 1, 1, 0.3])
+
+    def simple_statement(self, kind, pad, top, defined, lines) -> bool:
         r = self.rnd
-        pad = "    " * indent
-        top = indent == 1
-        lines: List[str] = []
-        defined = set(defined)
-        for _ in range(length):
-            e = lambda: self.expr(self.depth - 1, defined)  # noqa: E731
-            # Names this statement may assign: new ones only where allowed.
-            targets = list(self.LOCALS) if (top or self.flow) else sorted(defined)
-            kind = r.choices(["assign", "aug", "unpack", "if", "assert", "return",
-                              "raise", "pass"],
-                             [5, 2, 1, 3 if depth > 0 else 0, 1, 1, 1, 0.3])[0]
-            if kind == "assign" and targets:
-                name = r.choice(targets)
-                lines.append(f"{pad}{name} = {e()}")
-                defined.add(name)
-                self.assigned_anywhere.add(name)
-            elif kind == "aug" and defined:
-                name = r.choice(sorted(defined))
-                op = r.choice(("+=", "-=", "*=", "//=", "%="))
-                lines.append(f"{pad}{name} {op} {self.int_expr(self.depth - 1, defined)}")
-            elif kind == "unpack" and len(targets) >= 2:
-                a, c = r.sample(targets, 2)
-                if r.random() < 0.5 and a in defined and c in defined:
-                    lines.append(f"{pad}{a}, {c} = {c}, {a}")
-                else:
-                    lines.append(f"{pad}{a}, {c} = {e()}, {e()}")
-                defined |= {a, c}
-                self.assigned_anywhere |= {a, c}
-            elif kind == "if":
-                branches = r.choice((1, 2, 2, 3))
-                has_else = r.random() < 0.6
-                going_on: List[Set[str]] = []  # assigned sets of branches that fall through
-                for i in range(branches + has_else):
-                    if i < branches:
-                        word = "if" if i == 0 else "elif"
-                        lines.append(f"{pad}{word} {self.bool_expr(self.depth - 1, defined)}:")
-                    else:
-                        lines.append(f"{pad}else:")
-                    body, out, done = self.block(indent + 1, depth - 1, defined, r.randint(1, 3))
-                    lines.extend(body)
-                    if not done:
-                        going_on.append(out)
-                if not has_else:
-                    going_on.append(defined)
-                if not going_on:
-                    return lines, defined, True
-                defined = set.intersection(*going_on)
-            elif kind == "assert":
-                lines.append(f"{pad}assert {self.bool_expr(self.depth - 1, defined)}")
-            elif kind == "return" and depth < self.depth:
-                lines.append(f"{pad}return {self.result(defined)}")
-                return lines, defined, True
-            elif kind == "raise" and depth < self.depth:
-                exc = r.choice(("ValueError", "QuotaExceeded", 'ValueError("refused")',
-                                "QuotaExceeded(f'over by {x}')"))
-                lines.append(f"{pad}raise {exc}")
-                return lines, defined, True
+        e = lambda: self.expr(self.depth - 1, defined)  # noqa: E731
+        # Names this statement may assign: new ones only where allowed.
+        targets = list(self.LOCALS) if (top or self.flow) else sorted(defined)
+        if kind == "assign" and targets:
+            name = r.choice(targets)
+            lines.append(f"{pad}{name} = {e()}")
+            defined.add(name)
+            self.assigned_anywhere.add(name)
+        elif kind == "aug" and defined:
+            name = r.choice(sorted(defined))
+            op = r.choice(("+=", "-=", "*=", "//=", "%="))
+            lines.append(f"{pad}{name} {op} {self.int_expr(self.depth - 1, defined)}")
+        elif kind == "unpack" and len(targets) >= 2:
+            a, c = r.sample(targets, 2)
+            if r.random() < 0.5 and a in defined and c in defined:
+                lines.append(f"{pad}{a}, {c} = {c}, {a}")
             else:
-                lines.append(f"{pad}pass")
-        return lines, defined, False
+                lines.append(f"{pad}{a}, {c} = {e()}, {e()}")
+            defined |= {a, c}
+            self.assigned_anywhere |= {a, c}
+        else:
+            return False
+        return True
 
     def result(self, defined: Set[str]) -> str:
         r = self.rnd
@@ -236,11 +201,7 @@ class ProgramGenerator:
         return self.expr(self.depth, defined)
 
     def function(self) -> str:
-        r = self.rnd
-        body, defined, ended = self.block(1, self.depth, set(), r.randint(2, 5))
-        if not ended and r.random() < 0.9:
-            body.append(f"    return {self.result(defined)}")
-        return HEADER + "def f(x: int, y: int, b: bool):\n" + "\n".join(body) + "\n"
+        return HEADER + "def f(x: int, y: int, b: bool):\n" + "\n".join(self.body()) + "\n"
 
 
 def inputs_for(rnd: random.Random) -> List[Tuple[int, int, bool]]:

@@ -174,7 +174,18 @@ def test_repeat_by_a_negative_count_is_empty(tmp_path):
         ''')
     assert r.verdict == REFUTED
     assert r.counterexample.outcome == {"returned": "''"}
-    assert r.exact_precondition == "n >= 0"
+    # Exact: n >= 0, and the result must fit CPython's index range (a count
+    # with 2 * n > 2**63 - 1 raises OverflowError on 64-bit builds, run here).
+    holds = {n: eval(r.exact_precondition, {}, {"n": n})
+             for n in (-1, 0, 5, 2 ** 62, -(2 ** 70))}
+    assert holds == {-1: False, 0: True, 5: True, 2 ** 62: False, -(2 ** 70): False}
+    count = 2 ** 62  # a variable: the compiler would try to fold a constant
+    try:
+        "=-" * count
+    except OverflowError:
+        pass
+    else:  # pragma: no cover - a build with a wider index type
+        raise AssertionError("expected OverflowError from CPython")
 
 
 def test_empty_name_is_falsy_and_the_guard_proves(tmp_path):

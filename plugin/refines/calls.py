@@ -9,6 +9,7 @@ the call is not modelled (the translator then refuses it with a reason).
 from __future__ import annotations
 
 import math
+import sys
 
 from refines import ir
 
@@ -163,8 +164,28 @@ class Calls:
         if v.sort == ir.BOOL:
             return ir.ite(v, ir.const("True"), ir.const("False"))
         if isinstance(v, ir.Const):
-            return ir.const(str(v.value))
-        return ir.op("str_of_int", v, sort=ir.STR)
+            try:
+                return ir.const(str(v.value))
+            except ValueError as exc:  # past the digit limit, computed by CPython itself
+                self.raise_when(ir.TRUE, ValueError, node.lineno, str(exc))
+                return ir.const("")
+        # Built-in Types, "Integer string conversion length limitation": past
+        # sys.get_int_max_str_digits() digits (a setting of the interpreter,
+        # 4300 by default in 3.11+) str(n) raises ValueError. Like running out
+        # of memory, this is a limit of the running interpreter, not modelled:
+        # with it in the formula the solver must reason about 4301-digit
+        # numbers and stalls. The report states the assumption.
+        limit = getattr(sys, "get_int_max_str_digits", lambda: 0)()
+        if limit:
+            self.assume(f"str() of an int at line {node.lineno} is taken to succeed: "
+                        f"CPython raises ValueError for ints of more than {limit} digits "
+                        f"(sys.get_int_max_str_digits()), which is not modelled")
+        text = ir.op("str_of_int", v, sort=ir.STR)
+        boolean = ir.is_bool(v)  # a bool merged into an int prints as True/False
+        if ir.is_false(boolean):
+            return text
+        return ir.ite(boolean, ir.ite(ir.cmp("!=", v, ir.const(0)), ir.const("True"),
+                                      ir.const("False")), text)
 
     # ------------------------------------------------------------ str methods
 
@@ -180,20 +201,22 @@ class Calls:
         if name in ("startswith", "endswith"):
             if len(args) != 1:
                 return None  # start and end arguments are not modelled
-            options = args[0].items if isinstance(args[0], ir.Tup) else (args[0],)
-            if isinstance(args[0], ir.Tup) and not all(is_str(o) for o in options):
-                return self.type_error(node, f"tuple for {name} must only contain str",
-                                       ir.FALSE)
-            if not all(is_str(o) for o in options):
+            if not isinstance(args[0], ir.Tup) and not is_str(args[0]):
                 return self.type_error(node, f"{name} first arg must be str or a tuple "
                                              f"of str", ir.FALSE)
-            tests = []
+            options = args[0].items if isinstance(args[0], ir.Tup) else (args[0],)
+            # The items are tried left to right; a non-str item raises
+            # TypeError only if no earlier item matched.
+            found: ir.Term = ir.FALSE
             for o in options:
-                if all_const(s, o):
-                    tests.append(ir.const(getattr(s.value, name)(o.value)))
-                else:
-                    tests.append(ir.op(name, s, o, sort=ir.BOOL))
-            return ir.or_(*tests)
+                if not is_str(o):
+                    self.raise_when(ir.not_(found), TypeError, node.lineno,
+                                    f"tuple for {name} must only contain str")
+                    return ir.TRUE if ir.is_false(self.live) else found
+                hit = (ir.const(getattr(s.value, name)(o.value)) if all_const(s, o)
+                       else ir.op(name, s, o, sort=ir.BOOL))
+                found = ir.or_(found, hit)
+            return found
         if name in ("find", "rfind", "index", "rindex"):
             if not 1 <= len(args) <= 3:
                 return None

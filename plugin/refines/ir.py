@@ -291,13 +291,34 @@ def ite(cond: Term, then: Term, orelse: Term) -> Term:
     if then.sort != orelse.sort:
         if {then.sort, orelse.sort} - {INT, BOOL}:
             raise TypeError(f"an {then.sort} and an {orelse.sort} do not merge into one term")
-        then, orelse = as_int(then), as_int(orelse)
+        # A bool on one side and an int on the other: one int term, with a
+        # record of where it holds a bool (str(), `is True` and isinstance
+        # tell True from 1).
+        where = ite(cond, is_bool(then), is_bool(orelse))
+        merged = Ite(cond, as_int(then), as_int(orelse))
+        _BOOLNESS[merged] = where
+        return merged
     if then.sort == BOOL:
         if is_true(then) and is_false(orelse):
             return cond
         if is_false(then) and is_true(orelse):
             return not_(cond)
-    return Ite(cond, then, orelse)
+    out = Ite(cond, then, orelse)
+    if then.sort == INT and (then in _BOOLNESS or orelse in _BOOLNESS):
+        _BOOLNESS[out] = ite(cond, is_bool(then), is_bool(orelse))
+    return out
+
+
+_BOOLNESS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def is_bool(t: Term) -> Term:
+    """Where the value of ``t`` is a bool object (True or False) rather than
+    an int: always for a bool term, where recorded for an int term that
+    merges the two, and never otherwise."""
+    if t.sort == BOOL:
+        return TRUE
+    return _BOOLNESS.get(t, FALSE) if isinstance(t, Ite) else FALSE
 
 
 def arith(op: str, left: Term, right: Term) -> Term:
@@ -596,6 +617,9 @@ class Behaviour:
 
     params: Tuple[Var, ...]
     outcomes: Tuple[Outcome, ...]
+    # What the translation takes for granted beyond the modelled semantics
+    # (e.g. str(n) under the interpreter's digit limit); the report lists it.
+    assumptions: Tuple[str, ...] = ()
 
     def __repr__(self) -> str:
         return "\n".join(repr(o) for o in self.outcomes)

@@ -7,6 +7,7 @@ here are built in that context explicitly.
 
 from __future__ import annotations
 
+import sys
 from typing import Dict
 
 import z3
@@ -48,6 +49,33 @@ OPS = {
     "select": lambda ctx, a, r: z3.Select(a, r),
     "store": lambda ctx, a, r, v: z3.Store(a, r, v),
 }
+
+
+def int_val(value: int, ctx: z3.Context) -> z3.IntNumRef:
+    """An int constant of any size: z3 reads it through str(), which CPython
+    3.11+ refuses past sys.get_int_max_str_digits() digits."""
+    limit = getattr(sys, "get_int_max_str_digits", None)
+    if limit is None or not limit() or abs(value) < 10 ** 4000:
+        return z3.IntVal(value, ctx)
+    saved = limit()
+    sys.set_int_max_str_digits(0)
+    try:
+        return z3.IntVal(value, ctx)
+    finally:
+        sys.set_int_max_str_digits(saved)
+
+
+def read_int(z: z3.IntNumRef) -> int:
+    """The Python int of a z3 int value of any size (see ``int_val``)."""
+    limit = getattr(sys, "get_int_max_str_digits", None)
+    if limit is None or not limit():
+        return z.as_long()
+    saved = limit()
+    sys.set_int_max_str_digits(0)
+    try:
+        return z.as_long()
+    finally:
+        sys.set_int_max_str_digits(saved)
 
 
 def _seq_update(s, i, x, ctx):
@@ -135,7 +163,7 @@ class Lowering:
                 return z3.IntVal(int(t.value), ctx)
             if t.sort.startswith("seq:"):
                 return z3.Empty(z3_sort(t.sort, ctx))  # the only list constant
-            return z3.IntVal(int(t.value), ctx)
+            return int_val(int(t.value), ctx)
         if isinstance(t, ir.Op) and t.name in _DEFINED:
             args = [m[id(a)] for a in t.args]
             s, sub, window = args[0], args[1], args[2:] + [None] * (4 - len(args))

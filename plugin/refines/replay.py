@@ -58,6 +58,14 @@ def call_args(ob: Obligation, inputs: Dict[str, Any]) -> Tuple[list, dict]:
     return args, kwargs
 
 
+def shown(value: Any) -> str:
+    """``repr(value)``, except for ints too long for str() (CPython 3.11+
+    limits decimal conversion): those are written in hexadecimal."""
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) > 10 ** 4000:
+        return hex(value)
+    return repr(value)
+
+
 def literal(value: Any) -> str:
     """Python source for ``value``: repr, except for the floats whose repr is
     not valid Python (nan, inf)."""
@@ -67,7 +75,7 @@ def literal(value: Any) -> str:
     if isinstance(value, tuple):
         inner = ", ".join(literal(v) for v in value)
         return f"({inner},)" if len(value) == 1 else f"({inner})"
-    return repr(value)
+    return shown(value)
 
 
 def shared(ob: Obligation, inputs: Dict[str, Any]) -> Dict[str, str]:

@@ -72,6 +72,10 @@ def summary_lines(results: List[dict]) -> List[str]:
             if r["verdict"] == verdict:
                 why = f" -- {r['reason']}" if r.get("reason") else ""
                 lines.append(f"{label}: {r['nodeid']}{why}")
+    for r in results:  # a proof that rests on an assumption says which
+        for note in r.get("notes") or ():
+            if r["verdict"] == "proved" and note.startswith("assumed: "):
+                lines.append(f"proved, {note}: {r['nodeid']}")
     c = counts(results)
     lines.append("refines: " + ", ".join(f"{c[v]} {v}" for v in VERDICTS))
     return lines

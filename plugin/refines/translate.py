@@ -27,7 +27,6 @@ from __future__ import annotations
 
 import builtins
 import dataclasses
-import math
 import types
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Sequence, Tuple
@@ -251,6 +250,7 @@ class Translator(Calls, Heap):
         self.scope = scope
         self.env: Dict[str, object] = dict(env)
         self.heap: Dict[str, ir.Term] = dict(heap_state or {})
+        self.assumptions: List[str] = []
         self.old_env = old_env  # set only while reading a relation
         self.role = role
         self.live: ir.Term = ir.TRUE
@@ -265,6 +265,11 @@ class Translator(Calls, Heap):
             return
         self.outcomes.append(ir.Outcome(guard, exception=exc, line=line, cause=cause))
         self.live = ir.conj(self.live, ir.not_(cond))
+
+    def assume(self, what: str) -> None:
+        """Record something taken for granted beyond the modelled semantics."""
+        if not ir.is_false(self.live) and what not in self.assumptions:
+            self.assumptions.append(what)
 
     def unmodelled_when(self, cond: ir.Term, line: int, why: str) -> None:
         """Where ``cond`` holds, what Python does here is not modelled."""
@@ -646,7 +651,7 @@ class Translator(Calls, Heap):
 
     def power(self, base: ir.Term, exponent: ir.Term, node: nodes.NodeNG) -> ir.Term:
         if (isinstance(base, ir.Const) and isinstance(exponent, ir.Const)
-                and base.sort != ir.FLOAT and 0 <= exponent.value <= 4096):
+                and base.sort != ir.FLOAT and 0 <= exponent.value <= 10_000):
             return ir.const(int(base.value) ** int(exponent.value))  # e.g. 2 ** 1024
         if (isinstance(base, ir.Const) and isinstance(exponent, ir.Const)
                 and base.sort != ir.FLOAT and exponent.value < 0):
@@ -682,6 +687,19 @@ class Translator(Calls, Heap):
         if op == "*" and ir.FLOAT not in (left.sort, right.sort) and left.sort != right.sort:
             s, n = (left, right) if left.sort == ir.STR else (right, left)
             n = ir.as_int(n)
+            # CPython takes the count as a C ssize_t: |n| >= 2**63 raises
+            # OverflowError even for '' or a negative n, and so does a result
+            # longer than 2**63 - 1 (64-bit builds). Memory is taken to be
+            # enough (MemoryError is not modelled, as for huge ints: docs/cautions).
+            big = 2 ** 63
+            self.raise_when(ir.or_(ir.cmp(">=", n, ir.const(big)), ir.cmp("<", n, ir.const(-big))),
+                            OverflowError, node.lineno,
+                            "cannot fit 'int' into an index-sized integer")
+            total = ir.arith("*", str_len(s), n)
+            self.raise_when(ir.cmp(">", total, ir.const(big - 1)), OverflowError, node.lineno,
+                            "repeated string is too long")
+            if ir.is_false(self.live):
+                return ir.const("")
             if isinstance(s, ir.Const) and isinstance(n, ir.Const):
                 if len(s.value) * max(n.value, 0) > 10_000:
                     return self.refuse("value", node.lineno, {
@@ -847,6 +865,9 @@ class Translator(Calls, Heap):
                     return ir.FALSE
                 if isinstance(x, ir.Term) and x.sort == ir.BOOL:
                     return ir.cmp("==", x, y)
+                if isinstance(x, ir.Term) and x.sort == ir.INT:
+                    # True only where x holds the bool object (not the int 1)
+                    return ir.and_(ir.is_bool(x), ir.cmp("==", x, ir.as_int(y)))
         return None
 
     def equal(self, a: ir.Value, b: ir.Value, item: bool = False) -> ir.Term:
@@ -1140,10 +1161,10 @@ class Translator(Calls, Heap):
                 tests.append(ir.FALSE)  # a number or str is no list or modelled class
                 continue
             sort = value.sort
-            if cls is bool and sort == ir.INT and not isinstance(value, (ir.Var, ir.Const)):
-                # an int-sorted term may hold a bool merged into it (True if c else 1)
-                return self.refuse("call", node.lineno, {
-                    "callee": "isinstance(..., bool) of a value that may be a bool or an int"})
+            if cls is bool and sort == ir.INT:
+                # an int term may hold a bool merged into it (True if c else 1)
+                tests.append(ir.and_(ir.not_(none), ir.is_bool(value)))
+                continue
             hit = {int: sort in (ir.INT, ir.BOOL), bool: sort == ir.BOOL,
                    float: sort == ir.FLOAT, str: sort == ir.STR, tuple: False}[cls]
             tests.append(ir.and_(ir.not_(none), ir.const(hit)))
@@ -1239,7 +1260,7 @@ def translate_body(fn_node: nodes.FunctionDef, params: Sequence[ir.Var],
     t.block(fn_node.body)
     last = fn_node.body[-1] if fn_node.body else fn_node
     t.finish(ir.NONE, getattr(last, "end_lineno", None) or fn_node.lineno)
-    return ir.Behaviour(tuple(params), tuple(t.outcomes))
+    return ir.Behaviour(tuple(params), tuple(t.outcomes), tuple(t.assumptions))
 
 
 @dataclass
