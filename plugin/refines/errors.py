@@ -43,8 +43,10 @@ MESSAGES: Dict[str, Message] = {
         "supported: int, bool and float arithmetic (+ - * / // %, ** on ints with "
         "a constant exponent), str (+, * by an int, indexing, slicing, in, "
         "comparisons, len, str and the methods listed in the docs), comparisons, "
-        "and/or/not, conditional expressions, tuples, abs/min/max/int/bool/float "
-        "and math.isnan/isinf/isfinite/fabs/sqrt/floor/ceil/copysign",
+        "and/or/not, conditional expressions, tuples, lists of int/bool/str "
+        "(displays, indexing, slices, +, in, ==, len), annotated attributes of "
+        "objects, abs/min/max/int/bool/float/len/str/list/isinstance and "
+        "math.isnan/isinf/isfinite/fabs/sqrt/floor/ceil/copysign",
         "@refines(lambda x, result: result >= 0)\n"
         "def f(x: int) -> int:\n    return x.real\n",
         "unsupported",
@@ -62,8 +64,8 @@ MESSAGES: Dict[str, Message] = {
     ),
     "method": Message(
         "the method `{method}` is not translated yet",
-        "the str methods modelled are {allowed} (with one argument for "
-        "startswith/endswith, and no count for replace)",
+        "the methods modelled are {allowed} (startswith/endswith take one argument, "
+        "replace takes no count)",
         "@refines(lambda code, result: len(result) == len(code))\n"
         "def f(code: str) -> str:\n    return code.upper()\n",
         "unsupported",
@@ -104,14 +106,16 @@ MESSAGES: Dict[str, Message] = {
     "param-type": Message(
         "parameter `{name}` has the type hint `{hint_text}`, which is not modelled yet",
         "this release proves functions whose parameters are annotated `int`, "
-        "`bool`, `float` or `str`",
+        "`bool`, `float`, `str`, `Optional[...]` of one of them, `list[int]`, "
+        "`list[bool]`, `list[str]`, or a class with annotated attributes",
         "@refines(lambda s, result: result == s)\n"
         "def f(s: bytes) -> bytes:\n    return s\n",
         "unsupported",
     ),
     "param-untyped": Message(
         "parameter `{name}` has no type hint; the hint says which values to prove for",
-        "annotate it `int`, `bool`, `float` or `str`",
+        "annotate it: `int`, `bool`, `float`, `str`, `Optional[...]` of one of them, "
+        "`list[int]`, `list[bool]`, `list[str]`, or a class with annotated attributes",
         "@refines(lambda s, result: result == s)\n"
         "def f(s):\n    return s\n",
         "unsupported",

@@ -251,6 +251,7 @@ class Translator(Calls, Heap):
         self.env: Dict[str, object] = dict(env)
         self.heap: Dict[str, ir.Term] = dict(heap_state or {})
         self.assumptions: List[str] = []
+        self.line = 0  # the line of the expression being translated
         self.old_env = old_env  # set only while reading a relation
         self.role = role
         self.live: ir.Term = ir.TRUE
@@ -454,11 +455,12 @@ class Translator(Calls, Heap):
         operation that always raises: Python never runs it, so neither do we."""
         if ir.is_false(self.live):
             return ir.const(0)
-        raise Untranslatable(key, line, fields)
+        raise Untranslatable(key, line or self.line, fields)
 
     def expr(self, node: nodes.NodeNG) -> ir.Value:
         if ir.is_false(self.live):
             return ir.const(0)  # unreachable (e.g. after a certain raise): never runs
+        self.line = node.lineno or self.line  # for refusals deep inside an operation
         method = getattr(self, "expr_" + type(node).__name__, None)
         if method is None:
             kind = type(node).__name__
@@ -1087,12 +1089,13 @@ class Translator(Calls, Heap):
                 if result is None:
                     return self.refuse("method", node.lineno, {
                         "method": "list." + func.attrname,
-                        "allowed": "append, extend, pop (lists); " + ", ".join(STR_METHODS)})
+                        "allowed": "list.append, list.extend, list.pop"})
             elif isinstance(subject, ir.Term) and subject.sort == ir.STR:
                 result = self.str_method(func.attrname, subject, args, node)
                 if result is None:
                     return self.refuse("method", node.lineno, {
-                        "method": "str." + func.attrname, "allowed": ", ".join(STR_METHODS)})
+                        "method": "str." + func.attrname,
+                        "allowed": ", ".join("str." + m for m in STR_METHODS)})
             if result is not None:
                 return result
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
