@@ -20,6 +20,7 @@ import bench_overhead
 import bench_rlimit
 import bench_sequential_ifs
 import bench_solver_strategy
+import bench_string_strategy
 from bench_overhead import ms
 
 
@@ -57,6 +58,11 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
     if not args.no_strategy:
         print("=" * 30, "4. solver strategy for floats", "=" * 30)
         strategy = bench_solver_strategy.run(quick=args.quick)
+        print()
+        print("=" * 30, "5. string encodings", "=" * 30)
+        string_runs = 1 if args.quick else 3
+        strings = bench_string_strategy.run(string_runs, bench_string_strategy.BUDGET)
+        bench_string_strategy.table(strings, string_runs, bench_string_strategy.BUDGET)
         print()
 
     print("=" * 30, "summary", "=" * 30)
