@@ -124,7 +124,7 @@ def test_json_report_follows_the_schema(project):
     assert data["summary"] == {"proved": 3, "refuted": 1, "tested": 0, "unknown": 1,
                                "error": 1}
     keys = {"nodeid", "function", "path", "line", "verdict", "seconds", "reason",
-            "counterexample", "exact_precondition", "suggested_assuming"}
+            "counterexample", "exact_precondition", "suggested_assuming", "notes"}
     assert all(set(r) == keys for r in data["results"])
     by_id = {r["nodeid"]: r for r in data["results"]}
     shifted = by_id["specs.py::shifted"]
@@ -133,8 +133,8 @@ def test_json_report_follows_the_schema(project):
     assert shifted["line"] == line_of(project, "specs.py", "result > 5")
     assert shifted["verdict"] == "refuted"
     assert shifted["counterexample"] == {
-        "inputs": {"x": "4"}, "outcome": {"returned": "5"}, "confirmed": True,
-        "violated": "result > 5"}
+        "inputs": {"x": "4"}, "call": "shifted(x=4)", "outcome": {"returned": "5"},
+        "confirmed": True, "violated": "result > 5"}
     assert shifted["exact_precondition"] == "x > 4"
     assert shifted["suggested_assuming"] == "lambda x: x > 4"
     assert by_id["specs.py::bump"]["verdict"] == "proved"
@@ -315,3 +315,25 @@ def above(x: int) -> int:
     assert r["verdict"] == "unknown"
     assert r["line"] == line_of(pytester, "cases.py", "@refines(")
     assert r["function"] == "cases.above"
+
+
+def test_a_proof_resting_on_an_assumption_is_listed_with_it(pytester):
+    # str(n) is taken to succeed below the interpreter's digit limit (not
+    # modelled); the summary says so beside the proved obligation, and the JSON
+    # record carries the note.
+    import sys
+
+    if not getattr(sys, "get_int_max_str_digits", lambda: 0)():
+        pytest.skip("no int string conversion limit in this interpreter")
+    pytester.makeini("[pytest]\nrefines_paths = badge.py\n")
+    pytester.makepyfile(badge=(
+        "from refines import refines\n\n"
+        "@refines(lambda n, result: len(result) >= 1)\n"
+        "def badge(n: int) -> str:\n"
+        "    return str(n)\n"))
+    result = pytester.runpytest("-p", "no:cacheprovider", "--refines-report=report.json")
+    result.assert_outcomes(passed=1)
+    result.stdout.fnmatch_lines(["proved, assumed: str() of an int at line 5 is taken to "
+                                 "succeed*: badge.py::badge"])
+    record = json.loads((pytester.path / "report.json").read_text())["results"][0]
+    assert any(n.startswith("assumed: str() of an int") for n in record["notes"])

@@ -29,7 +29,7 @@ class Counterexample:
     detail: str = ""  # e.g. the exception message, or the raising statement
 
     def to_json(self) -> dict:
-        return {"inputs": dict(self.inputs), "outcome": dict(self.outcome),
+        return {"inputs": dict(self.inputs), "call": self.call, "outcome": dict(self.outcome),
                 "confirmed": self.confirmed, "violated": self.violated}
 
 
@@ -63,4 +63,6 @@ class Result:
             "counterexample": self.counterexample.to_json() if self.counterexample else None,
             "exact_precondition": self.exact_precondition,
             "suggested_assuming": self.suggested_assuming,
+            # Assumptions, aliasing and other notes; not internal tracebacks.
+            "notes": [n for n in self.notes if not n.startswith("Traceback")],
         }
