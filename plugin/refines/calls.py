@@ -176,7 +176,8 @@ class Calls:
         # with it in the formula the solver must reason about 4301-digit
         # numbers and stalls. The report states the assumption.
         limit = getattr(sys, "get_int_max_str_digits", lambda: 0)()
-        if limit:
+        # A length has at most 19 digits (it is below 2**63): no assumption needed.
+        if limit and not (isinstance(v, ir.Op) and v.name == "len"):
             self.assume(f"str() of an int at line {node.lineno} is taken to succeed: "
                         f"CPython raises ValueError for ints of more than {limit} digits "
                         f"(sys.get_int_max_str_digits()), which is not modelled")
