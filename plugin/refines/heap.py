@@ -212,7 +212,7 @@ class Heap:
             return ir.const(0)
         index = ir.as_int(index)
         n = ir.op("len", items, sort=ir.INT)
-        self.raise_when(ir.not_(ir.and_(ir.cmp(">=", index, ir.neg(n)), ir.cmp("<", index, n))),
+        self.raise_when(ir.not_(ir.index_ok(index, n)),
                         IndexError, node.lineno, "list index out of range")
         return ir.op("nth", items, index, sort=elem_sort(v.kind))
 
@@ -243,7 +243,7 @@ class Heap:
             return
         index = ir.as_int(index)
         n = ir.op("len", items, sort=ir.INT)
-        self.raise_when(ir.not_(ir.and_(ir.cmp(">=", index, ir.neg(n)), ir.cmp("<", index, n))),
+        self.raise_when(ir.not_(ir.index_ok(index, n)),
                         IndexError, node.lineno, "list assignment index out of range")
         at = ir.ite(ir.cmp("<", index, ir.const(0)), ir.arith("+", n, index), index)
         value = value if sort != ir.INT else ir.as_int(value)
@@ -281,8 +281,7 @@ class Heap:
                 return None
             self.raise_when(ir.cmp("==", n, ir.const(0)), IndexError, node.lineno,
                             "pop from empty list")
-            self.raise_when(ir.not_(ir.and_(ir.cmp(">=", index, ir.neg(n)),
-                                            ir.cmp("<", index, n))),
+            self.raise_when(ir.not_(ir.index_ok(index, n)),
                             IndexError, node.lineno, "pop index out of range")
             at = ir.ite(ir.cmp("<", index, ir.const(0)), ir.arith("+", n, index), index)
             value = ir.op("nth", items, at, sort=sort)
@@ -294,9 +293,10 @@ class Heap:
         return None
 
 
-def _kind(t: ir.Term) -> str:
-    return t.sort if t.sort in (ir.FLOAT, ir.STR) else ir.INT
-
-
 def _kind_of_sort(sort: str) -> str:
+    """Sorts that merge into one if-then-else have one kind (bool and int do)."""
     return sort if sort in (ir.FLOAT, ir.STR) else ir.INT
+
+
+def _kind(t: ir.Term) -> str:
+    return _kind_of_sort(t.sort)

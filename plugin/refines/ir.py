@@ -570,6 +570,12 @@ def truth(v: Value) -> Term:
     return cmp("!=", v, const(0))
 
 
+def index_ok(index: Term, n: Term) -> Term:
+    """``-n <= index < n``: a sequence index Python accepts (a negative one
+    counts from the end)."""
+    return and_(cmp(">=", index, neg(n)), cmp("<", index, n))
+
+
 def str_len(s: Term) -> Term:
     if isinstance(s, Const):
         return const(len(s.value))

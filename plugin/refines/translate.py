@@ -91,9 +91,7 @@ def shape(v: ir.Value) -> str:
     return {ir.FLOAT: "float", ir.STR: "str"}.get(v.sort, "int/bool")
 
 
-def _kind(t: ir.Term) -> str:
-    """Terms of one kind merge into one if-then-else (bool and int do)."""
-    return t.sort if t.sort in (ir.FLOAT, ir.STR) else ir.INT
+_kind = heap._kind  # terms of one kind merge into one if-then-else
 
 
 def merge(cond: ir.Term, a, b):
@@ -1054,7 +1052,7 @@ class Translator(Calls, Heap):
             return ir.const("")
         index = ir.as_int(index)
         n = str_len(s)
-        self.raise_when(ir.not_(ir.and_(ir.cmp(">=", index, ir.neg(n)), ir.cmp("<", index, n))),
+        self.raise_when(ir.not_(ir.index_ok(index, n)),
                         IndexError, node.lineno, "string index out of range")
         if isinstance(s, ir.Const) and isinstance(index, ir.Const):
             in_range = -len(s.value) <= index.value < len(s.value)
