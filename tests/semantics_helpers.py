@@ -37,7 +37,9 @@ crash the interpreter).
 from __future__ import annotations
 
 import atexit
+import copy
 import ctypes
+import dataclasses
 import importlib.util
 import itertools
 import math
@@ -53,7 +55,7 @@ from typing import Any, Callable, List, Optional, Sequence, Tuple
 
 import z3
 
-from refines import fpmath, ir, strmath
+from refines import fpmath, heap, ir, strmath
 from refines.lower import Lowering
 from refines.source import find_function, read_params
 from refines.translate import Scope, translate_body
@@ -103,10 +105,30 @@ class Evaluator:
         self.behaviour = behaviour
         self.ctx = z3.Context()
         self.lower = Lowering(self.ctx)
-        self.vars = [self.lower.var(p.name, p.sort) for p in behaviour.params]
+        # Optional, list and object parameters: see ``_heap_substitution``.
+        self.heapy = any(p.sort == ir.REF or p.optional for p in behaviour.params)
+        self.vars = (None if self.heapy else
+                     [self.lower.var(p.name, p.sort) for p in behaviour.params])
         self.guards = [self.lower(o.guard) for o in behaviour.outcomes]
         self.values = [None if not o.returns else self._lower_value(o.value)
                        for o in behaviour.outcomes]
+        if self.heapy:
+            # Each return's heap (fields it wrote), and every pre-state field
+            # a term reads or a parameter's kind has: key -> z3 array constant.
+            self.heaps = [None if not o.returns else
+                          {k: self.lower(a) for k, a in (o.heap or {}).items()}
+                          for o in behaviour.outcomes]
+            keys = set()
+            for p in behaviour.params:
+                if p.sort == ir.REF:
+                    keys.update(_field_keys(p.kind))
+            roots = list(self.guards) + [a for h in self.heaps if h for a in h.values()]
+            roots += [t for v in self.values if v is not None for t in _lowered_terms(v)]
+            for root in roots:
+                for c in free_constants(root):
+                    if c.decl().name().startswith(ir.HEAP_PREFIX):
+                        keys.add(c.decl().name()[len(ir.HEAP_PREFIX):])
+            self.fields = {k: self.lower(heap.initial_field(k)) for k in sorted(keys)}
         # Some ops lower to a fresh constant pinned by a definition (str.find);
         # on concrete inputs the solver gives each its one value.
         self.definitions = list(getattr(self.lower, "definitions", ()))
@@ -117,6 +139,10 @@ class Evaluator:
             return ("tuple", [self._lower_value(i) for i in v.items])
         if v is ir.NONE:
             return ("none", None)
+        if isinstance(v, ir.Opt):
+            return ("opt", (self.lower(v.none), self._lower_value(v.value)))
+        if isinstance(v, ir.Ref):
+            return ("ref", (v.kind, self.lower(v.ref)))
         assert isinstance(v, ir.Term), f"outcome value is not a value: {v!r}"
         return (v.sort, self.lower(v))
 
@@ -134,10 +160,14 @@ class Evaluator:
         return z3.IntVal(int(value), self.ctx)
 
     def substitution(self, args: Sequence[Any]):
-        subst = [(var, self._constant(a, p.sort))
-                 for var, a, p in zip(self.vars, args, self.behaviour.params)]
+        if self.heapy:
+            subst = self._heap_substitution(args)
+        else:
+            subst = [(var, self._constant(a, p.sort))
+                     for var, a, p in zip(self.vars, args, self.behaviour.params)]
         if self.definitions:
-            key = tuple((type(a), a) for a in args)
+            key = (repr(shape(tuple(args))) if self.heapy
+                   else tuple((type(a), a) for a in args))
             if key not in self._defined:
                 self._defined[key] = self._defined_constants(subst)
             subst = subst + self._defined[key]
@@ -248,6 +278,147 @@ class Evaluator:
         assert type(v) not in (float, str), f"an {kind} term evaluated to {v!r}"
         return bool(v) if kind == ir.BOOL else int(v)
 
+    # ------------------------------------------------ Optional, lists, objects
+
+    # The value an absent Optional's payload variable gets: the translation
+    # must not read it where the parameter is None.
+    OPTIONAL_FILLER = 13
+
+    def _heap_substitution(self, args: Sequence[Any]):
+        """Parameters replaced by constants, for behaviours with Optional,
+        list or object parameters. Each distinct Python object gets a
+        reference number from 0 up, in order of first appearance (the same
+        object twice: one number -- aliasing); each pre-state field becomes a
+        constant array (a default everywhere, the objects' contents at their
+        numbers)."""
+        numbers: dict = {}
+        objects = []  # (kind, number, object)
+        subst = []
+        for p, a in zip(self.behaviour.params, args):
+            v = ir.initial(p)
+            if p.sort == ir.REF:
+                if id(a) not in numbers:
+                    numbers[id(a)] = len(numbers)
+                    objects.append((p.kind, numbers[id(a)], a))
+                subst.append((self.lower(v.ref), z3.IntVal(numbers[id(a)], self.ctx)))
+            elif p.optional:
+                subst.append((self.lower(v.none), z3.BoolVal(a is None, self.ctx)))
+                filler = {ir.BOOL: False, ir.FLOAT: 0.0, ir.STR: ""}.get(
+                    p.sort, self.OPTIONAL_FILLER)
+                subst.append((self.lower(v.value),
+                              self._constant(filler if a is None else a, p.sort)))
+            else:
+                subst.append((self.lower(p), self._constant(a, p.sort)))
+        for key, var in self.fields.items():
+            sort = heap.field_sort(key)
+            arr = z3.K(z3.IntSort(self.ctx), self._default(sort))
+            for kind, number, obj in objects:
+                if key == kind:  # a list: its contents
+                    if type(obj) is not list:
+                        raise TypeError(f"a {kind} parameter needs a list, not {obj!r}")
+                    value = self._seq_constant(obj, sort[len("seq:"):])
+                elif key.startswith(kind + ".") and kind.startswith("obj:"):
+                    value = self._constant(getattr(obj, key[len(kind) + 1:]), sort)
+                else:
+                    continue
+                arr = z3.Store(arr, z3.IntVal(number, self.ctx), value)
+            subst.append((var, arr))
+        return subst
+
+    def _default(self, sort: str):
+        if sort.startswith("seq:"):
+            return self._seq_constant([], sort[len("seq:"):])
+        return self._constant({ir.BOOL: False, ir.FLOAT: 0.0, ir.STR: ""}.get(sort, 0), sort)
+
+    def _seq_constant(self, items: Sequence[Any], elem: str):
+        from refines.lower import z3_sort
+
+        seq_sort = z3_sort(ir.seq_sort(elem), self.ctx)
+        if not items:
+            return z3.Empty(seq_sort)
+        for x in items:
+            if elem == ir.INT and type(x) is not int or elem == ir.BOOL and type(x) is not bool:
+                raise TypeError(f"a list of {elem} needs {elem} items, not {x!r}")
+        units = [z3.Unit(self._constant(x, elem)) for x in items]
+        return units[0] if len(units) == 1 else z3.Concat(*units)
+
+    def _read(self, lowered, subst, arrays: dict, made: dict) -> Any:
+        """The Python value of a lowered outcome value; lists and objects are
+        read in ``arrays`` (the outcome's heap), one object per reference
+        number (``made``), so a list returned and an argument that is the same
+        object are one Python object."""
+        kind, payload = lowered
+        if kind == "tuple":
+            return tuple(self._read(i, subst, arrays, made) for i in payload)
+        if kind == "opt":
+            none, inner = payload
+            is_none = self.concrete(none, subst)
+            assert type(is_none) is bool, f"an Optional's none flag evaluated to {is_none!r}"
+            return None if is_none else self._read(inner, subst, arrays, made)
+        if kind == "ref":
+            return self._object(payload[0], self.concrete(payload[1], subst), subst,
+                                arrays, made)
+        if kind.startswith("seq:"):
+            return self._read_seq(payload, kind[len("seq:"):], subst)
+        return self._value(lowered, subst)
+
+    def _object(self, kind: str, number: Any, subst, arrays: dict, made: dict) -> Any:
+        assert type(number) is int, f"a reference evaluated to {number!r}"
+        if (kind, number) in made:
+            return made[(kind, number)]
+        at = z3.IntVal(number, self.ctx)
+        if kind.startswith("list:"):
+            made[(kind, number)] = out = []
+            out.extend(self._read_seq(z3.Select(arrays[kind], at), heap.elem_sort(kind), subst))
+            return out
+        info = heap.KINDS[kind]
+        obj = info.cls.__new__(info.cls)  # its fields as the model has them, not via __init__
+        made[(kind, number)] = obj
+        for attr, sort in info.fields.items():
+            object.__setattr__(obj, attr, self._value(
+                (sort, z3.Select(arrays[heap.field_key(kind, attr)], at)), subst))
+        return obj
+
+    def _read_seq(self, e, elem: str, subst) -> list:
+        e = z3.simplify(z3.substitute(e, *subst)) if subst else z3.simplify(e)
+        n = self.concrete(z3.Length(e), None)
+        assert type(n) is int and n >= 0, f"a list length evaluated to {n!r}"
+        return [self._value((elem, e[i]), None) for i in range(n)]
+
+    def _arrays(self, index: int) -> dict:
+        """The heap after outcome ``index``: written fields, the rest as before."""
+        written = self.heaps[index] or {}
+        return dict(self.fields, **written)
+
+    def predict_state(self, args: Sequence[Any]) -> Tuple[Result, Optional[tuple]]:
+        """The predicted outcome and, for a return, the post-state of every
+        argument (lists and objects read in the outcome's heap; other
+        arguments as given). Raising outcomes: ``(("raised", cls), None)``."""
+        hits = self.holding(args)
+        assert len(hits) == 1, (
+            f"on {tuple(args)!r}: {len(hits)} outcome guards hold (expected exactly 1)\n"
+            f"{self.behaviour!r}")
+        i = hits[0]
+        o = self.behaviour.outcomes[i]
+        if o.unmodelled:
+            return (UNMODELLED, o.unmodelled), None
+        if not o.returns:
+            return ("raised", o.exception), None
+        subst = self.substitution(args)
+        if not self.heapy:
+            return ("returned", self._value(self.values[i], subst)), tuple(args)
+        arrays = self._arrays(i)
+        made: dict = {}
+        post = []
+        for p, a in zip(self.behaviour.params, args):
+            if p.sort == ir.REF:
+                post.append(self._read(("ref", (p.kind, self.lower(ir.initial(p).ref))),
+                                       subst, arrays, made))
+            else:
+                post.append(a)
+        value = self._read(self.values[i], subst, arrays, made)
+        return ("returned", value), tuple(post)
+
     def holding(self, args: Sequence[Any]) -> List[int]:
         """Indexes of the outcomes whose guard holds on ``args``."""
         subst = self.substitution(args)
@@ -268,7 +439,85 @@ class Evaluator:
             return (UNMODELLED, o.unmodelled)
         if not o.returns:
             return ("raised", o.exception)
+        if self.heapy:
+            return self.predict_state(args)[0]
         return ("returned", self._value(self.values[hits[0]], self.substitution(args)))
+
+
+def _field_keys(kind: str) -> List[str]:
+    """The heap fields of a kind: a list kind's contents, a class's attributes."""
+    if kind.startswith("list:"):
+        return [heap.field_key(kind)]
+    return [heap.field_key(kind, a) for a in heap.KINDS[kind].fields]
+
+
+def _lowered_terms(lowered) -> list:
+    kind, payload = lowered
+    if kind == "tuple":
+        return [t for i in payload for t in _lowered_terms(i)]
+    if kind == "none":
+        return []
+    if kind == "opt":
+        return [payload[0]] + _lowered_terms(payload[1])
+    if kind == "ref":
+        return [payload[1]]
+    return [payload]
+
+
+def shape(value: Any, ids: Optional[dict] = None) -> Any:
+    """A value as plain nested tuples that say everything the heap comparison
+    looks at: the exact type of each scalar (floats by their bits), each list
+    and object's contents, and which of them are one object -- every list or
+    object gets a number by first appearance (``ids``), so two values have the
+    same shape exactly when they are alike object for object."""
+    ids = {} if ids is None else ids
+    if isinstance(value, list):
+        if id(value) in ids:
+            return ("same", ids[id(value)])
+        ids[id(value)] = len(ids)
+        return ("list", ids[id(value)], tuple(shape(x, ids) for x in value))
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        if id(value) in ids:
+            return ("same", ids[id(value)])
+        ids[id(value)] = len(ids)
+        return ("obj", type(value).__qualname__, ids[id(value)],
+                tuple((f.name, shape(getattr(value, f.name, None), ids))
+                      for f in dataclasses.fields(value)))
+    if isinstance(value, tuple):
+        return ("tuple", tuple(shape(x, ids) for x in value))
+    if value is None:
+        return ("none",)
+    if type(value) is float:
+        return ("float", "nan" if value != value else float_bits(value))
+    if type(value) in (int, bool, str):
+        return (type(value).__name__, value)
+    return ("other", repr(value))
+
+
+def same_shape(expected: Any, got: Any) -> bool:
+    """Shapes (``shape``) agree, with ``same``'s one allowance: where the
+    translation has an int, CPython may have a bool (a value that is a bool
+    on one path and an int on another is modelled as an int)."""
+    if isinstance(expected, tuple) and isinstance(got, tuple) and expected[:1] == ("bool",) \
+            and got[:1] == ("int",):
+        return expected[1] == got[1]
+    if not (isinstance(expected, tuple) and isinstance(got, tuple)):
+        return expected == got
+    return len(expected) == len(got) and all(same_shape(a, b) for a, b in zip(expected, got))
+
+
+def same_state(expected: Tuple[Result, Optional[tuple]],
+               got: Tuple[Result, Optional[tuple]]) -> bool:
+    """Outcome and post-state agree: the same exception class (no post-state
+    is compared after a raise), or the returned value and every argument's
+    post-state alike object for object (``shape`` of arguments, then result,
+    numbered together: a result that is an argument must be that argument)."""
+    (e_res, e_args), (g_res, g_args) = expected, got
+    if e_res[0] != g_res[0] or UNMODELLED in (e_res[0], g_res[0]):
+        return False
+    if e_res[0] == "raised":
+        return e_res[1] is g_res[1]
+    return same_shape(shape((e_args, e_res[1])), shape((g_args, g_res[1])))
 
 
 def read_float(e: z3.FPNumRef) -> float:
@@ -409,12 +658,37 @@ class Translated:
     def run(self, *args: Any) -> Result:
         return run_python(self.fn, distinct_objects(args))
 
+    def run_state(self, *args: Any) -> Tuple[Result, tuple]:
+        """What CPython does, on a deep copy of the arguments (taken as one
+        tuple, so aliasing among them is kept), and the arguments after."""
+        copied = copy.deepcopy(tuple(args))
+        return run_python(self.fn, distinct_objects(copied)), copied
+
+    def predict_state(self, *args: Any) -> Tuple[Result, Optional[tuple]]:
+        return self.evaluator.predict_state(args)
+
+    def state_mismatch(self, *args: Any, allow_unmodelled: bool = True) -> Optional[str]:
+        """Like ``mismatch``, comparing the post-state of list and object
+        arguments too (``same_state``)."""
+        expected = self.run_state(*args)
+        try:
+            got = self.predict_state(*args)
+        except AssertionError as exc:
+            return f"{self.fn.__name__}{tuple(args)!r}: CPython {expected}, translation: {exc}"
+        if same_state(expected, got) or (got[0][0] == UNMODELLED and allow_unmodelled):
+            return None
+        return f"{self.fn.__name__}{tuple(args)!r}: CPython {expected}, translation {got}"
+
     def mismatch(self, *args: Any, allow_unmodelled: bool = True) -> Optional[str]:
         """``None`` if translation and CPython agree on ``args``, else a description.
 
         Where the translation says the outcome is not modelled it claims
         nothing, so that agrees -- unless ``allow_unmodelled`` is false.
+        Behaviours with Optional, list or object parameters compare the
+        post-state too (``state_mismatch``).
         """
+        if self.evaluator.heapy:
+            return self.state_mismatch(*args, allow_unmodelled=allow_unmodelled)
         expected = self.run(*args)
         try:
             got = self.predict(*args)

@@ -158,3 +158,25 @@ def test_unions_of_two_types_are_unknown_and_named(tmp_path, hint):
         ''')
     assert r.verdict == UNKNOWN
     assert "`x`" in r.reason
+
+
+def test_an_optional_slice_bound_is_omitted_when_none(tmp_path):
+    # Language Reference, "Slicings": a None bound is an omitted one.
+    r = one(tmp_path, '''
+        @refines(lambda code, cut, result: result == (code if cut is None else code[cut:]))
+        def tail(code: str, cut: Optional[int]) -> str:
+            return code[cut:]
+        ''')
+    assert r.verdict == PROVED, r.reason or r.counterexample
+
+
+def test_an_optional_index_raises_type_error_when_none(tmp_path):
+    r = one(tmp_path, '''
+        @refines(lambda code, at, result: len(result) == 1,
+                 raises={IndexError: lambda code, at: at is not None and not -len(code) <= at < len(code)})
+        def letter(code: str, at: Optional[int]) -> str:
+            return code[at]
+        ''')
+    assert r.verdict == REFUTED
+    assert r.counterexample.outcome == {"raised": "TypeError"}
+    assert r.exact_precondition == "at is not None"

@@ -216,17 +216,16 @@ class Heap:
                         IndexError, node.lineno, "list index out of range")
         return ir.op("nth", items, index, sort=elem_sort(v.kind))
 
-    def list_slice(self, v: ir.Ref, lower, upper, node) -> ir.Value:
+    def slice_contents(self, v: ir.Ref, lower, upper) -> ir.Term:
+        """What ``v[lower:upper]`` holds (None for an omitted bound)."""
         items = self.contents(v)
         if lower is None and upper is None:
-            part = items
-        elif lower is None:
-            part = ir.op("slice_to", items, upper, sort=items.sort)
-        elif upper is None:
-            part = ir.op("slice_from", items, lower, sort=items.sort)
-        else:
-            part = ir.op("slice", items, lower, upper, sort=items.sort)
-        return self.new_list(v.kind, part)
+            return items
+        if lower is None:
+            return ir.op("slice_to", items, upper, sort=items.sort)
+        if upper is None:
+            return ir.op("slice_from", items, lower, sort=items.sort)
+        return ir.op("slice", items, lower, upper, sort=items.sort)
 
     def set_item(self, v: ir.Ref, index: ir.Value, value: ir.Value, node) -> None:
         items = self.contents(v)

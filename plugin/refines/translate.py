@@ -367,7 +367,7 @@ class Translator(Calls, Heap):
             return
         if isinstance(target, nodes.Subscript) and not isinstance(target.slice, nodes.Slice):
             container = self.expr(target.value)
-            index = self.expr(target.slice)
+            index = self.index_value(target.slice, target)
             if isinstance(container, ir.Ref) and container.kind.startswith("list:"):
                 self.set_item(container, index, value, target)
                 return
@@ -948,21 +948,17 @@ class Translator(Calls, Heap):
             container = container.value
         if isinstance(container, ir.Ref) and container.kind.startswith("list:"):
             if not isinstance(node.slice, nodes.Slice):
-                return self.list_item(container, self.expr(node.slice), node)
-            parts = [None if p is None else self.expr(p)
-                     for p in (node.slice.lower, node.slice.upper, node.slice.step)]
-            parts = [None if p is ir.NONE else p for p in parts]
-            if parts[2] is not None and not (isinstance(parts[2], ir.Const)
-                                             and parts[2].value == 1):
-                return self.refuse("expression", node.lineno,
-                                   {"construct": "list slice with a step other than 1"})
-            if any(p is not None and not (isinstance(p, ir.Term) and p.sort in (ir.INT, ir.BOOL))
-                   for p in parts[:2]):
-                self.raise_when(ir.TRUE, TypeError, node.lineno,
-                                "slice indices must be integers or None")
-                return ir.NONE
-            lower, upper = [None if p is None else ir.as_int(p) for p in parts[:2]]
-            return self.list_slice(container, lower, upper, node)
+                return self.list_item(container, self.index_value(node.slice, node), node)
+            contents = None
+            for cond, (lower, upper, step) in self.slice_cases(node):
+                if step is not None and not (isinstance(step, ir.Const) and step.value == 1):
+                    return self.refuse("expression", node.lineno,
+                                       {"construct": "list slice with a step other than 1"})
+                part = self.slice_contents(container, lower, upper)
+                contents = part if contents is None else ir.ite(cond, part, contents)
+            if contents is None:
+                return ir.NONE  # every case raised
+            return self.new_list(container.kind, contents)
         if isinstance(container, ir.Term) and container.sort == ir.STR:
             return self.str_subscript(container, node)
         if not isinstance(container, ir.Tup):
@@ -1006,47 +1002,53 @@ class Translator(Calls, Heap):
                                  {"construct": node.as_string(), "shapes": value.shapes})
         return value
 
+    def index_value(self, index_node: nodes.NodeNG, node) -> ir.Value:
+        """A subscript's index; an optional one raises TypeError where it is None."""
+        index = self.expr(index_node)
+        if isinstance(index, ir.Opt):
+            self.raise_when(index.none, TypeError, node.lineno,
+                            "indices must be integers or slices, not NoneType")
+            index = index.value
+        return index
+
+    def slice_cases(self, node: nodes.Subscript):
+        """The parts of a slice as ``(condition, (lower, upper, step))`` cases:
+        all three are evaluated first, as Python does; a part that may be None
+        splits into a case where it is omitted and one where it is a number;
+        a part of another type raises TypeError."""
+        parts = [None if p is None else self.expr(p)
+                 for p in (node.slice.lower, node.slice.upper, node.slice.step)]
+        cases = [(ir.TRUE, [None if p is ir.NONE else p for p in parts])]
+        for i in range(3):
+            split = []
+            for cond, ps in cases:
+                p = ps[i]
+                if isinstance(p, ir.Opt):
+                    split.append((ir.and_(cond, p.none), ps[:i] + [None] + ps[i + 1:]))
+                    split.append((ir.and_(cond, ir.not_(p.none)), ps[:i] + [p.value] + ps[i + 1:]))
+                else:
+                    split.append((cond, ps))
+            cases = split
+        out = []
+        for cond, ps in cases:
+            if any(p is not None and not (isinstance(p, ir.Term) and p.sort in (ir.INT, ir.BOOL))
+                   for p in ps):
+                self.raise_when(cond, TypeError, node.lineno,
+                                "slice indices must be integers or None")
+                continue
+            out.append((cond, tuple(None if p is None else ir.as_int(p) for p in ps)))
+        return out
+
     def str_subscript(self, s: ir.Term, node: nodes.Subscript) -> ir.Value:
         # Language Reference, "Subscriptions" and "Slicings"; str documentation,
         # "Common Sequence Operations" (notes 3 and 4 on negative and clamped bounds).
         if isinstance(node.slice, nodes.Slice):
-            # All three parts are evaluated before the slice is applied.
-            parts = [None if p is None else self.expr(p)
-                     for p in (node.slice.lower, node.slice.upper, node.slice.step)]
-            parts = [None if p is ir.NONE else p for p in parts]
-            if any(p is not None and not (isinstance(p, ir.Term)
-                                          and p.sort in (ir.INT, ir.BOOL)) for p in parts):
-                self.raise_when(ir.TRUE, TypeError, node.lineno,
-                                "slice indices must be integers or None")
-                return ir.const("")
-            lower, upper, step = [None if p is None else ir.as_int(p) for p in parts]
-            if step is not None:
-                if not isinstance(step, ir.Const):
-                    return self.refuse("expression", node.lineno,
-                                       {"construct": "str slice with a variable step"})
-                if step.value == 0:
-                    self.raise_when(ir.TRUE, ValueError, node.lineno,
-                                    "slice step cannot be zero")
-                    return ir.const("")
-                if step.value != 1:
-                    if isinstance(s, ir.Const) and all(
-                            isinstance(b, (ir.Const, type(None))) for b in (lower, upper)):
-                        return ir.const(s.value[slice(
-                            *[None if b is None else b.value for b in (lower, upper, step)])])
-                    return self.refuse("expression", node.lineno,
-                                       {"construct": "str slice with a step other than 1"})
-            if isinstance(s, ir.Const) and all(isinstance(b, (ir.Const, type(None)))
-                                               for b in (lower, upper)):
-                return ir.const(s.value[None if lower is None else lower.value:
-                                        None if upper is None else upper.value])
-            if lower is None and upper is None:
-                return s
-            if lower is None:
-                return ir.op("slice_to", s, upper, sort=ir.STR)
-            if upper is None:
-                return ir.op("slice_from", s, lower, sort=ir.STR)
-            return ir.op("slice", s, lower, upper, sort=ir.STR)
-        index = self.expr(node.slice)
+            value = None
+            for cond, (lower, upper, step) in self.slice_cases(node):
+                part = self.str_slice(s, lower, upper, step, node, cond)
+                value = part if value is None else ir.ite(cond, part, value)
+            return ir.const("") if value is None else value  # None: every case raised
+        index = self.index_value(node.slice, node)
         if not (isinstance(index, ir.Term) and index.sort in (ir.INT, ir.BOOL)):
             self.raise_when(ir.TRUE, TypeError, node.lineno, "string indices must be integers")
             return ir.const("")
@@ -1058,6 +1060,35 @@ class Translator(Calls, Heap):
             in_range = -len(s.value) <= index.value < len(s.value)
             return ir.const(s.value[index.value] if in_range else "")
         return ir.op("getitem", s, index, sort=ir.STR)
+
+    def str_slice(self, s: ir.Term, lower, upper, step, node,
+                  cond: ir.Term = ir.TRUE) -> ir.Term:
+        """``s[lower:upper:step]`` in one case of ``slice_cases``."""
+        if step is not None:
+            if not isinstance(step, ir.Const):
+                return self.refuse("expression", node.lineno,
+                                   {"construct": "str slice with a variable step"})
+            if step.value == 0:
+                self.raise_when(cond, ValueError, node.lineno, "slice step cannot be zero")
+                return ir.const("")
+            if step.value != 1:
+                if isinstance(s, ir.Const) and all(
+                        isinstance(b, (ir.Const, type(None))) for b in (lower, upper)):
+                    return ir.const(s.value[slice(
+                        *[None if b is None else b.value for b in (lower, upper, step)])])
+                return self.refuse("expression", node.lineno,
+                                   {"construct": "str slice with a step other than 1"})
+        if isinstance(s, ir.Const) and all(isinstance(b, (ir.Const, type(None)))
+                                           for b in (lower, upper)):
+            return ir.const(s.value[None if lower is None else lower.value:
+                                    None if upper is None else upper.value])
+        if lower is None and upper is None:
+            return s
+        if lower is None:
+            return ir.op("slice_to", s, upper, sort=ir.STR)
+        if upper is None:
+            return ir.op("slice_from", s, lower, sort=ir.STR)
+        return ir.op("slice", s, lower, upper, sort=ir.STR)
 
     def expr_Call(self, node: nodes.Call) -> ir.Value:
         func = node.func
