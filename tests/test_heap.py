@@ -239,3 +239,26 @@ def test_a_dataclass_with_its_own_eq_is_not_compared_field_by_field(tmp_path):
             return a == b
         ''', header="from dataclasses import dataclass\nfrom refines import refines, old\n\n")
     assert r.verdict == UNKNOWN, (r.verdict, r.reason)
+
+
+def test_a_list_of_floats(tmp_path):
+    # Items are IEEE doubles; the counterexample list is read back exactly.
+    r = one(tmp_path, '''
+        @refines(lambda readings, x, result: readings[-1] == x and len(readings) == len(old(readings)) + 1)
+        def log(readings: list[float], x: float) -> None:
+            readings.append(x)
+        ''')
+    assert r.verdict == REFUTED  # x may be NaN, and nan == nan is False
+    assert "nan" in r.counterexample.inputs["x"]
+    assert r.exact_precondition == "not math.isnan(x)"
+
+
+def test_float_list_membership_is_unknown_not_guessed(tmp_path):
+    # [nan] contains its own NaN object (identity first): not modelled for lists.
+    r = one(tmp_path, '''
+        @refines(lambda readings, result: True)
+        def has_zero(readings: list[float]) -> bool:
+            return 0.0 in readings
+        ''')
+    assert r.verdict == UNKNOWN
+    assert "list of floats" in r.reason

@@ -799,10 +799,10 @@ UNSUPPORTED = [
     def f(x: int) -> int:
         return len([])
     """, "[]"),
-    ("list-of-floats", "expression", """
-    def f(x: float) -> float:
-        return [x][0]
-    """, "[x]"),
+    ("float-in-list-of-floats", "operator", """
+    def f(x: float) -> bool:
+        return x in [x]
+    """, "x in [x]"),
     ("bytes-module-constant", "name", """
     GRADE = b"6a+"
 

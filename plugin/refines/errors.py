@@ -98,7 +98,7 @@ MESSAGES: Dict[str, Message] = {
     "value": Message(
         "the value `{construct}` of type {type} is not modelled yet",
         "this release models int, bool, float, str (code points up to U+1FFFF in "
-        "constants), tuples of them and None",
+        "constants), tuples, lists, objects with annotated attributes, and None",
         "@refines(lambda x, result: result == x)\n"
         "def f(x: int) -> bytes:\n    return b'crimp'\n",
         "unsupported",
@@ -106,8 +106,8 @@ MESSAGES: Dict[str, Message] = {
     "param-type": Message(
         "parameter `{name}` has the type hint `{hint_text}`, which is not modelled yet",
         "this release proves functions whose parameters are annotated `int`, "
-        "`bool`, `float`, `str`, `Optional[...]` of one of them, `list[int]`, "
-        "`list[bool]`, `list[str]`, or a class with annotated attributes",
+        "`bool`, `float`, `str`, `Optional[...]` of one of them, a list of one of "
+        "them (`list[int]`, ...), or a class with annotated attributes",
         "@refines(lambda s, result: result == s)\n"
         "def f(s: bytes) -> bytes:\n    return s\n",
         "unsupported",
@@ -115,7 +115,7 @@ MESSAGES: Dict[str, Message] = {
     "param-untyped": Message(
         "parameter `{name}` has no type hint; the hint says which values to prove for",
         "annotate it: `int`, `bool`, `float`, `str`, `Optional[...]` of one of them, "
-        "`list[int]`, `list[bool]`, `list[str]`, or a class with annotated attributes",
+        "a list of one of them (`list[int]`, ...), or a class with annotated attributes",
         "@refines(lambda s, result: result == s)\n"
         "def f(s):\n    return s\n",
         "unsupported",

@@ -29,7 +29,7 @@ from refines import ir
 # Element and attribute types modelled on the heap, by the sort they get.
 _FIELD_SORTS = {int: ir.INT, bool: ir.BOOL, str: ir.STR, float: ir.FLOAT,
                 "int": ir.INT, "bool": ir.BOOL, "str": ir.STR, "float": ir.FLOAT}
-LIST_ELEMENTS = {int: ir.INT, bool: ir.BOOL, str: ir.STR}  # list[float]: see docs
+LIST_ELEMENTS = {int: ir.INT, bool: ir.BOOL, str: ir.STR, float: ir.FLOAT}
 
 
 @dataclasses.dataclass
@@ -192,10 +192,10 @@ class Heap:
                 "construct": "empty list display [] (its element type is not known "
                              "where it is made)"})
         sorts = {_kind(i) if isinstance(i, ir.Term) else None for i in items}
-        if len(sorts) != 1 or None in sorts or sorts == {ir.FLOAT}:
+        if len(sorts) != 1 or None in sorts:
             return self.refuse("expression", node.lineno, {
                 "construct": "list display " + node.as_string() + " (lists of one of "
-                             "int, bool, str are modelled)"})
+                             "int, bool, float, str are modelled)"})
         sort = ir.BOOL if all(i.sort == ir.BOOL for i in items) else sorts.pop()
         contents = None
         for i in items:

@@ -128,6 +128,7 @@ class Solver:
         for i in range(n):
             z = model.eval(seq[i], model_completion=True)
             out.append(strmath.read(model, z) if elem == ir.STR
+                       else fpmath.read(model, z) if elem == ir.FLOAT
                        else z3.is_true(z) if elem == ir.BOOL else read_int(z))
         return out
 

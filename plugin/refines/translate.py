@@ -804,6 +804,13 @@ class Translator(Calls, Heap):
                 b = self.scalar(b, node, op)  # `x in None` raises TypeError
             if isinstance(b, ir.Ref) and b.kind.startswith("list:"):
                 sort = heap.elem_sort(b.kind)
+                if sort == ir.FLOAT:
+                    # Items compare by identity first: a NaN object is `in` its
+                    # own list. Element identity is not modelled for lists.
+                    return self.refuse("operator", node.lineno, {
+                        "op": op, "types": "a list of floats",
+                        "hint": "item identity (a NaN equals itself inside a list) "
+                                "is not modelled for lists yet"})
                 if isinstance(a, ir.Term) and (a.sort == ir.STR) == (sort == ir.STR) \
                         and a.sort != ir.FLOAT:
                     item = a if sort != ir.INT else ir.as_int(a)
@@ -883,6 +890,11 @@ class Translator(Calls, Heap):
             if not (isinstance(a, ir.Ref) and isinstance(b, ir.Ref)):
                 return ir.FALSE  # a list never equals a tuple, None or a number
             if a.kind.startswith("list:"):
+                if heap.elem_sort(a.kind) == ir.FLOAT:
+                    return self.refuse("operator", 0, {
+                        "op": "==", "types": "lists of floats",
+                        "hint": "item identity (a NaN equals itself inside a list) "
+                                "is not modelled for lists yet"})
                 return ir.cmp("==", self.contents(a), self.contents(b))
             info = heap.KINDS[a.kind]
             params = getattr(info.cls, "__dataclass_params__", None)
@@ -917,6 +929,13 @@ class Translator(Calls, Heap):
         if isinstance(a, ir.Term) and isinstance(b, ir.Term):
             if (a.sort == ir.STR) != (b.sort == ir.STR):
                 return ir.FALSE  # a str never equals a number
+            if item and ir.FLOAT in (a.sort, b.sort) and any(
+                    isinstance(x, ir.Op) and x.name == "nth" for x in (a, b)):
+                # Two reads of one list item are one object (a NaN equals
+                # itself there); identity of list items is not modelled.
+                return self.refuse("operator", 0, {
+                    "op": "==", "types": "floats read from a list, inside a tuple",
+                    "hint": "item identity of lists is not modelled yet"})
             if item and ir.FLOAT in (a.sort, b.sort):
                 return ir.or_(same_object(a, b), ir.cmp("==", a, b))
             return ir.cmp("==", a, b)
