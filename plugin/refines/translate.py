@@ -20,13 +20,15 @@ and narrows ``live``, so the guards of a behaviour's outcomes are disjoint and
 cover all pre-states.
 
 One visitor method per node kind; anything else raises ``Untranslatable``,
-the only road to an ``unknown`` verdict.
+the only road to an ``unknown`` verdict. The operations on particular kinds
+of value live in mixins: ``calls`` (builtins, ``math``, str methods),
+``compare`` (==, ordering, ``is``, ``in``, ``isinstance``), ``strings`` (str
+operators, indexing, slicing) and ``heap`` (lists and objects).
 """
 
 from __future__ import annotations
 
 import builtins
-import dataclasses
 import types
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Sequence, Tuple
@@ -34,11 +36,12 @@ from typing import Callable, Dict, List, Optional, Sequence, Tuple
 import astroid
 from astroid import nodes
 
-from refines import ir, strmath
-from refines import heap
+from refines import heap, ir
 from refines.calls import _CALLS, STR_METHODS, Calls
-from refines.heap import Heap
+from refines.compare import Comparisons, optional_parts
 from refines.errors import SpecError, Untranslatable
+from refines.heap import Heap
+from refines.strings import Strings, str_const
 
 # Python statement keywords for the node kinds we do not translate yet.
 _STATEMENT_NAMES = {
@@ -122,8 +125,8 @@ def merge(cond: ir.Term, a, b):
             if _kind(a) != _kind(b):
                 return Conflict(f"{shape(a)} and {shape(b)}")  # e.g. int or float
             return ir.ite(cond, a, b)
-        an, av = _optional(a)
-        bn, bv = _optional(b)
+        an, av = optional_parts(a)
+        bn, bv = optional_parts(b)
         if av is None or bv is None:
             value = av if bv is None else bv
         elif _kind(av) != _kind(bv):
@@ -139,26 +142,7 @@ def merge(cond: ir.Term, a, b):
     return Conflict(f"{shape(a)} and {shape(b)}")
 
 
-def _optional(v):
-    """``(is None, value)`` of a scalar that may be None; value None for None."""
-    if v is ir.NONE:
-        return ir.TRUE, None
-    if isinstance(v, ir.Opt):
-        return v.none, v.value
-    return ir.FALSE, v
-
-
 truthy = ir.truth
-str_len = ir.str_len
-
-
-def str_const(text: str, line: int) -> ir.Term:
-    """A string constant; code points from the top of the solver's alphabet
-    up are refused, since the model could not tell inputs apart from them."""
-    if any(ord(ch) > strmath.MAX_CONSTANT_CODE_POINT for ch in text):
-        raise Untranslatable("value", line, {
-            "construct": repr(text), "type": "str with code points above U+1FFFF"})
-    return ir.const(text)
 
 
 class Scope:
@@ -239,7 +223,7 @@ class Scope:
                 and self.globals.get(name, getattr(builtins, name, None)) is fn)
 
 
-class Translator(Calls, Heap):
+class Translator(Calls, Heap, Comparisons, Strings):
     """Symbolic execution of one body or spec expression."""
 
     def __init__(self, scope: Scope, env: Dict[str, ir.Value],
@@ -681,38 +665,6 @@ class Translator(Calls, Heap):
             "op": op, "types": "tuples",
             "hint": "tuples support + with a tuple and * by a constant int"})
 
-    def str_binop(self, op: str, left: ir.Term, right: ir.Term, node) -> ir.Term:
-        if op == "+" and left.sort == right.sort:
-            return ir.arith("+", left, right)
-        if op == "*" and ir.FLOAT not in (left.sort, right.sort) and left.sort != right.sort:
-            s, n = (left, right) if left.sort == ir.STR else (right, left)
-            n = ir.as_int(n)
-            # CPython takes the count as a C ssize_t: |n| >= 2**63 raises
-            # OverflowError even for '' or a negative n, and so does a result
-            # longer than 2**63 - 1 (64-bit builds). Memory is taken to be
-            # enough (MemoryError is not modelled, as for huge ints: docs/cautions).
-            big = 2 ** 63
-            self.raise_when(ir.or_(ir.cmp(">=", n, ir.const(big)), ir.cmp("<", n, ir.const(-big))),
-                            OverflowError, node.lineno,
-                            "cannot fit 'int' into an index-sized integer")
-            total = ir.arith("*", str_len(s), n)
-            self.raise_when(ir.cmp(">", total, ir.const(big - 1)), OverflowError, node.lineno,
-                            "repeated string is too long")
-            if ir.is_false(self.live):
-                return ir.const("")
-            if isinstance(s, ir.Const) and isinstance(n, ir.Const):
-                if len(s.value) * max(n.value, 0) > 10_000:
-                    return self.refuse("value", node.lineno, {
-                        "construct": node.as_string(), "type": "str longer than 10,000"})
-                return ir.const(s.value * max(int(n.value), 0))
-            return ir.op("repeat", s, n, sort=ir.STR)
-        if op == "%" and left.sort == ir.STR:
-            return self.refuse("operator", node.lineno, {
-                "op": op, "types": "str", "hint": "printf-style formatting is not modelled"})
-        kinds = " and ".join(f"'{'int' if t.sort == ir.BOOL else t.sort}'" for t in (left, right))
-        self.raise_when(ir.TRUE, TypeError, node.lineno,
-                        f"unsupported operand types for {op}: {kinds}")
-        return ir.const("")
 
     def scalar(self, v: ir.Value, node: nodes.NodeNG, op: str) -> ir.Term:
         if isinstance(v, ir.Term):
@@ -779,185 +731,6 @@ class Translator(Calls, Heap):
             left = right
         return holds
 
-    def compare(self, op: str, a: ir.Value, b: ir.Value, node) -> ir.Term:
-        if op in ("is", "is not") and (isinstance(a, ir.Ref) or isinstance(b, ir.Ref)):
-            same = (ir.cmp("==", a.ref, b.ref) if isinstance(a, ir.Ref) and isinstance(b, ir.Ref)
-                    and a.kind == b.kind else ir.FALSE)
-            if isinstance(a, ir.Opt) or isinstance(b, ir.Opt):
-                other = a if isinstance(a, ir.Opt) else b
-                same = ir.FALSE if not ir.is_false(same) else ir.and_(ir.FALSE, other.none)
-            return same if op == "is" else ir.not_(same)
-        if op in ("is", "is not"):
-            if a is ir.NONE or b is ir.NONE:
-                other = b if a is ir.NONE else a
-                same = (other.none if isinstance(other, ir.Opt)
-                        else ir.const(other is ir.NONE))
-                return same if op == "is" else ir.not_(same)
-            same = self.identical_bools(a, b)
-            if same is not None:
-                return same if op == "is" else ir.not_(same)
-            return self.refuse("operator", node.lineno, {
-                "op": op, "types": "numbers or strs",
-                "hint": "`is` between them depends on object identity; use =="})
-        if op in ("in", "not in"):
-            if isinstance(b, ir.Opt):
-                b = self.scalar(b, node, op)  # `x in None` raises TypeError
-            if isinstance(b, ir.Ref) and b.kind.startswith("list:"):
-                sort = heap.elem_sort(b.kind)
-                if sort == ir.FLOAT:
-                    # Items compare by identity first: a NaN object is `in` its
-                    # own list. Element identity is not modelled for lists.
-                    return self.refuse("operator", node.lineno, {
-                        "op": op, "types": "a list of floats",
-                        "hint": "item identity (a NaN equals itself inside a list) "
-                                "is not modelled for lists yet"})
-                if isinstance(a, ir.Term) and (a.sort == ir.STR) == (sort == ir.STR) \
-                        and a.sort != ir.FLOAT:
-                    item = a if sort != ir.INT else ir.as_int(a)
-                    if sort == ir.BOOL and a.sort != ir.BOOL:
-                        return self.refuse("mixed", node.lineno, {
-                            "construct": node.as_string(), "shapes": "int in list[bool]"})
-                    found = ir.op("seq_contains", item, self.contents(b), sort=ir.BOOL)
-                elif isinstance(a, ir.Term) and a.sort == ir.FLOAT and sort != ir.STR:
-                    return self.refuse("mixed", node.lineno, {
-                        "construct": node.as_string(), "shapes": "a float in a list of ints"})
-                elif isinstance(a, (ir.Ref, ir.Tup, ir.Opt)):
-                    return self.refuse("mixed", node.lineno, {
-                        "construct": node.as_string(), "shapes": "this value in a list"})
-                else:
-                    found = ir.FALSE  # a str in a list of ints (or the reverse), None
-                return found if op == "in" else ir.not_(found)
-            if isinstance(b, ir.Term) and b.sort == ir.STR:
-                if not (isinstance(a, ir.Term) and a.sort == ir.STR):
-                    self.raise_when(ir.TRUE, TypeError, node.lineno,
-                                    "'in <string>' requires string as left operand")
-                    return ir.FALSE
-                found = (ir.const(a.value in b.value)
-                         if isinstance(a, ir.Const) and isinstance(b, ir.Const)
-                         else ir.op("contains", a, b, sort=ir.BOOL))
-                return found if op == "in" else ir.not_(found)
-            if not isinstance(b, ir.Tup):
-                return self.refuse("operator", node.lineno, {
-                    "op": op, "types": "this right-hand side",
-                    "hint": "`in` is modelled for tuples and strs"})
-            found = ir.or_(*(self.equal(a, item, True) for item in b.items))
-            return found if op == "in" else ir.not_(found)
-        if op in ("==", "!="):
-            same = self.equal(a, b)
-            return same if op == "==" else ir.not_(same)
-        if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
-            return self.lexicographic(op, list(a.items), list(b.items), node)
-        if isinstance(a, ir.Ref) or isinstance(b, ir.Ref):
-            return self.refuse("operator", node.lineno, {
-                "op": op, "types": "lists and objects",
-                "hint": "ordering lists (and objects) is not modelled yet"})
-        a, b = self.scalar(a, node, op), self.scalar(b, node, op)
-        if (a.sort == ir.STR) != (b.sort == ir.STR):
-            # Ordering a str against a number raises (Language Reference,
-            # "Value comparisons"); the value returned is never used.
-            self.raise_when(ir.TRUE, TypeError, node.lineno,
-                            f"'{op}' not supported between a str and a number")
-            return ir.FALSE
-        return ir.cmp(op, a, b)
-
-    @staticmethod
-    def identical_bools(a: ir.Value, b: ir.Value) -> Optional[ir.Term]:
-        """``a is True``/``a is False``: True and False are singletons, so for a
-        bool this is equality; a float or a tuple is never one of them. None
-        when it cannot be decided (an int-sorted term may hold a bool)."""
-        for x, y in ((a, b), (b, a)):
-            if isinstance(y, ir.Const) and y.sort == ir.BOOL:
-                if isinstance(x, ir.Tup) or (isinstance(x, ir.Term)
-                                             and x.sort in (ir.FLOAT, ir.STR)):
-                    return ir.FALSE
-                if isinstance(x, ir.Term) and x.sort == ir.BOOL:
-                    return ir.cmp("==", x, y)
-                if isinstance(x, ir.Term) and x.sort == ir.INT:
-                    # True only where x holds the bool object (not the int 1)
-                    return ir.and_(ir.is_bool(x), ir.cmp("==", x, ir.as_int(y)))
-        return None
-
-    def equal(self, a: ir.Value, b: ir.Value, item: bool = False) -> ir.Term:
-        """``a == b``; ``item`` for the items of tuples and ``in``, which Python
-        compares by identity first (a NaN object equals itself there)."""
-        if isinstance(a, ir.Ref) or isinstance(b, ir.Ref):
-            if isinstance(a, ir.Ref) and isinstance(b, ir.Ref) and a.kind != b.kind:
-                # [] == [] and [1] == [True] hold across kinds; objects may
-                # define __eq__ across classes: not modelled.
-                return self.refuse("mixed", 0, {
-                    "construct": "== between different kinds of lists or objects",
-                    "shapes": f"{heap.describe(a.kind)} and {heap.describe(b.kind)}"})
-            if not (isinstance(a, ir.Ref) and isinstance(b, ir.Ref)):
-                return ir.FALSE  # a list never equals a tuple, None or a number
-            if a.kind.startswith("list:"):
-                if heap.elem_sort(a.kind) == ir.FLOAT:
-                    return self.refuse("operator", 0, {
-                        "op": "==", "types": "lists of floats",
-                        "hint": "item identity (a NaN equals itself inside a list) "
-                                "is not modelled for lists yet"})
-                return ir.cmp("==", self.contents(a), self.contents(b))
-            info = heap.KINDS[a.kind]
-            params = getattr(info.cls, "__dataclass_params__", None)
-            generated = getattr(getattr(info.cls.__eq__, "__code__", None), "co_filename",
-                                "") == "<string>"
-            if params is not None and params.eq and generated and all(
-                    f.compare for f in dataclasses.fields(info.cls)):
-                fields = [f.name for f in dataclasses.fields(info.cls)]
-                if any(f not in info.fields for f in fields):
-                    return self.refuse("mixed", 0, {
-                        "construct": f"== between {info.cls.__qualname__} objects",
-                        "shapes": "fields whose types are not modelled"})
-                # A dataclass compares its fields as a tuple (dataclasses documentation).
-                same = ir.cmp("==", a.ref, b.ref)
-                return ir.or_(same, ir.and_(*(self.equal(
-                    self.read_field(heap.field_key(a.kind, f), a.ref),
-                    self.read_field(heap.field_key(a.kind, f), b.ref), True) for f in fields)))
-            if info.cls.__eq__ is not object.__eq__:
-                return self.refuse("call", 0, {"callee": info.cls.__qualname__ + ".__eq__"})
-            return ir.cmp("==", a.ref, b.ref)  # object's == is identity
-        if isinstance(a, ir.Opt) or isinstance(b, ir.Opt):
-            # None equals only None; otherwise compare the values.
-            an, av = _optional(a)
-            bn, bv = _optional(b)
-            both_none = ir.and_(an, bn)
-            if av is None or bv is None or not isinstance(av, ir.Term) \
-                    or not isinstance(bv, ir.Term):
-                return both_none if not isinstance(a, ir.Tup) and not isinstance(b, ir.Tup) \
-                    else ir.FALSE
-            return ir.or_(both_none, ir.and_(ir.not_(an), ir.not_(bn),
-                                             self.equal(av, bv, item)))
-        if isinstance(a, ir.Term) and isinstance(b, ir.Term):
-            if (a.sort == ir.STR) != (b.sort == ir.STR):
-                return ir.FALSE  # a str never equals a number
-            if item and ir.FLOAT in (a.sort, b.sort) and any(
-                    isinstance(x, ir.Op) and x.name == "nth" for x in (a, b)):
-                # Two reads of one list item are one object (a NaN equals
-                # itself there); identity of list items is not modelled.
-                return self.refuse("operator", 0, {
-                    "op": "==", "types": "floats read from a list, inside a tuple",
-                    "hint": "item identity of lists is not modelled yet"})
-            if item and ir.FLOAT in (a.sort, b.sort):
-                return ir.or_(same_object(a, b), ir.cmp("==", a, b))
-            return ir.cmp("==", a, b)
-        if isinstance(a, ir.Tup) and isinstance(b, ir.Tup):
-            if len(a.items) != len(b.items):
-                return ir.FALSE
-            return ir.and_(*(self.equal(x, y, True) for x, y in zip(a.items, b.items)))
-        return ir.const(a is b)  # None == None; None is unequal to ints and tuples
-
-    def lexicographic(self, op, a, b, node) -> ir.Term:
-        # Sequence comparison (Language Reference, "Value comparisons"): the
-        # first pair that is not equal decides, by `op` on that pair alone
-        # (which may raise, e.g. None < 1); later items are never compared.
-        # If one is a prefix of the other, the shorter is less.
-        if not a or not b:
-            la, lb = len(a), len(b)
-            return ir.const({"<": la < lb, "<=": la <= lb, ">": la > lb,
-                             ">=": la >= lb}[op])
-        same = self.equal(a[0], b[0], True)
-        rest, first = self.branches(same, lambda: self.lexicographic(op, a[1:], b[1:], node),
-                                    lambda: self.compare(op, a[0], b[0], node))
-        return ir.ite(same, rest, first)
 
     def expr_Subscript(self, node: nodes.Subscript) -> ir.Value:
         container = self.expr(node.value)
@@ -1058,56 +831,6 @@ class Translator(Calls, Heap):
             out.append((cond, tuple(None if p is None else ir.as_int(p) for p in ps)))
         return out
 
-    def str_subscript(self, s: ir.Term, node: nodes.Subscript) -> ir.Value:
-        # Language Reference, "Subscriptions" and "Slicings"; str documentation,
-        # "Common Sequence Operations" (notes 3 and 4 on negative and clamped bounds).
-        if isinstance(node.slice, nodes.Slice):
-            value = None
-            for cond, (lower, upper, step) in self.slice_cases(node):
-                part = self.str_slice(s, lower, upper, step, node, cond)
-                value = part if value is None else ir.ite(cond, part, value)
-            return ir.const("") if value is None else value  # None: every case raised
-        index = self.index_value(node.slice, node)
-        if not (isinstance(index, ir.Term) and index.sort in (ir.INT, ir.BOOL)):
-            self.raise_when(ir.TRUE, TypeError, node.lineno, "string indices must be integers")
-            return ir.const("")
-        index = ir.as_int(index)
-        n = str_len(s)
-        self.raise_when(ir.not_(ir.index_ok(index, n)),
-                        IndexError, node.lineno, "string index out of range")
-        if isinstance(s, ir.Const) and isinstance(index, ir.Const):
-            in_range = -len(s.value) <= index.value < len(s.value)
-            return ir.const(s.value[index.value] if in_range else "")
-        return ir.op("getitem", s, index, sort=ir.STR)
-
-    def str_slice(self, s: ir.Term, lower, upper, step, node,
-                  cond: ir.Term = ir.TRUE) -> ir.Term:
-        """``s[lower:upper:step]`` in one case of ``slice_cases``."""
-        if step is not None:
-            if not isinstance(step, ir.Const):
-                return self.refuse("expression", node.lineno,
-                                   {"construct": "str slice with a variable step"})
-            if step.value == 0:
-                self.raise_when(cond, ValueError, node.lineno, "slice step cannot be zero")
-                return ir.const("")
-            if step.value != 1:
-                if isinstance(s, ir.Const) and all(
-                        isinstance(b, (ir.Const, type(None))) for b in (lower, upper)):
-                    return ir.const(s.value[slice(
-                        *[None if b is None else b.value for b in (lower, upper, step)])])
-                return self.refuse("expression", node.lineno,
-                                   {"construct": "str slice with a step other than 1"})
-        if isinstance(s, ir.Const) and all(isinstance(b, (ir.Const, type(None)))
-                                           for b in (lower, upper)):
-            return ir.const(s.value[None if lower is None else lower.value:
-                                    None if upper is None else upper.value])
-        if lower is None and upper is None:
-            return s
-        if lower is None:
-            return ir.op("slice_to", s, upper, sort=ir.STR)
-        if upper is None:
-            return ir.op("slice_from", s, lower, sort=ir.STR)
-        return ir.op("slice", s, lower, upper, sort=ir.STR)
 
     def expr_Call(self, node: nodes.Call) -> ir.Value:
         func = node.func
@@ -1168,58 +891,6 @@ class Translator(Calls, Heap):
 
     # ------------------------------------------------------------ helpers
 
-    def call_isinstance(self, v: ir.Value, types_node: nodes.NodeNG, node) -> ir.Term:
-        """``isinstance(v, T)`` for T among int, bool, float, str, tuple and
-        type(None), or a tuple of them (Python's bool is a subclass of int)."""
-        elts = types_node.elts if isinstance(types_node, nodes.Tuple) else [types_node]
-        classes = []
-        for e in elts:
-            if (isinstance(e, nodes.Call) and self.scope.resolve(e.func) is type
-                    and len(e.args) == 1 and isinstance(e.args[0], nodes.Const)
-                    and e.args[0].value is None):
-                classes.append(type(None))
-                continue
-            cls = self.scope.resolve(e)
-            if isinstance(cls, type) and cls not in (int, bool, float, str, tuple, list,
-                                                     type(None), object):
-                heap.class_kind(cls)  # registered here too: no order dependence
-            if not isinstance(cls, type) or (
-                    cls not in (int, bool, float, str, tuple, list, type(None), object)
-                    and not any(info.cls is cls for info in heap.KINDS.values())):
-                return self.refuse("call", node.lineno, {
-                    "callee": f"isinstance(..., {e.as_string()})"})
-            classes.append(cls)
-        none, value = _optional(v) if not isinstance(v, ir.Tup) else (ir.FALSE, v)
-        tests = []
-        for cls in classes:
-            if cls is object:
-                return ir.TRUE
-            if cls is type(None):
-                tests.append(none)
-                continue
-            if value is None:
-                continue
-            if isinstance(value, ir.Tup):
-                tests.append(ir.const(cls is tuple))
-                continue
-            if isinstance(value, ir.Ref):
-                if value.kind.startswith("list:"):
-                    tests.append(ir.const(cls is list))
-                else:
-                    tests.append(ir.const(issubclass(heap.KINDS[value.kind].cls, cls)))
-                continue
-            if cls is list or cls not in (int, bool, float, str, tuple):
-                tests.append(ir.FALSE)  # a number or str is no list or modelled class
-                continue
-            sort = value.sort
-            if cls is bool and sort == ir.INT:
-                # an int term may hold a bool merged into it (True if c else 1)
-                tests.append(ir.and_(ir.not_(none), ir.is_bool(value)))
-                continue
-            hit = {int: sort in (ir.INT, ir.BOOL), bool: sort == ir.BOOL,
-                   float: sort == ir.FLOAT, str: sort == ir.STR, tuple: False}[cls]
-            tests.append(ir.and_(ir.not_(none), ir.const(hit)))
-        return ir.or_(*tests)
 
     def is_value(self, node: nodes.NodeNG) -> bool:
         """Whether a method's subject is a value (``name.find``) rather than a
@@ -1285,19 +956,6 @@ class Translator(Calls, Heap):
             return not isinstance(self.env[name], (MaybeUnbound, Conflict))
         return name not in self.scope.function_locals and (
             name in self.scope.globals or hasattr(builtins, name))
-
-
-def same_object(a: ir.Term, b: ir.Term) -> ir.Term:
-    """Whether ``a`` and ``b`` are one Python object. A value flows through
-    assignments and branches unchanged, while each arithmetic operation makes a
-    new object; distinct parameters are taken to be distinct objects."""
-    if a is b:
-        return ir.TRUE
-    if isinstance(a, ir.Ite):
-        return ir.ite(a.cond, same_object(a.then, b), same_object(a.orelse, b))
-    if isinstance(b, ir.Ite):
-        return ir.ite(b.cond, same_object(a, b.then), same_object(a, b.orelse))
-    return ir.FALSE
 
 
 # ---------------------------------------------------------------- entry points
