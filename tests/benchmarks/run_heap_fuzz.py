@@ -26,13 +26,14 @@ last lines are the tally and the outcomes CPython gave, by kind.
 from __future__ import annotations
 
 import argparse
-import multiprocessing
 import os
 import sys
-import time
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, os.path.dirname(HERE))  # tests/: the generator and the helpers
+sys.path.insert(0, HERE)
+
+import fuzz_runner  # noqa: E402
 
 SHAPES = ("functions3", "functions4")
 SEED_BASE = 9_000_000
@@ -73,48 +74,12 @@ def main(argv=None) -> int:
     fixed = 8  # test_heap_differential.inputs_for: the fixed inputs
     per_program = fixed + args.random_inputs
     jobs = max(1, args.jobs)
-    started = time.perf_counter()
-    programs = cases = bad_cases = unmodelled = 0
-    mismatches, refused, crashed = [], [], []
-    outcomes: dict = {}
-    done = 0
-    # A refused program gives no cases: top up until there are enough.
-    while cases < args.cases:
-        more = -(-(args.cases - cases) // per_program)
-        pieces = [(lo, min(lo + PIECE, done + more), args.random_inputs)
-                  for lo in range(done, done + more, PIECE)]
-        done += more
-        if jobs == 1:
-            results = list(map(run_piece, pieces))
-        else:
-            with multiprocessing.get_context("spawn").Pool(jobs) as pool:
-                results = list(pool.imap_unordered(run_piece, pieces))
-        for p, c, b, u, m, r, x, o in results:
-            programs, cases, bad_cases, unmodelled = (programs + p, cases + c,
-                                                      bad_cases + b, unmodelled + u)
-            mismatches.extend(m)
-            refused.extend(r)
-            crashed.extend(x)
-            for kind, count in o.items():
-                outcomes[kind] = outcomes.get(kind, 0) + count
-    elapsed = time.perf_counter() - started
-
-    def seed(text):
-        return int(text.split()[2])  # "--- seed N"
-
-    problems = sorted(mismatches + crashed, key=seed)
-    for text in problems[:args.show]:
-        print(text, end="\n\n")
+    t = fuzz_runner.run(run_piece, args.cases, per_program, args.random_inputs, jobs, PIECE)
+    problems = sorted(t.mismatches + t.crashed, key=fuzz_runner.seed_of)
     if args.out:
         with open(args.out, "w", encoding="utf-8") as fh:
-            fh.write("\n\n".join(sorted(problems + refused, key=seed)) + "\n")
-    print(f"jobs: {jobs}; inputs per program: {per_program}; "
-          f"seeds {SEED_BASE}..{SEED_BASE + done - 1}")
-    print("CPython outcomes: " + ", ".join(
-        f"{kind} {count}" for kind, count in sorted(outcomes.items(), key=lambda kv: -kv[1])))
-    print(f"cases: {cases}  programs: {programs}  mismatches: {bad_cases} "
-          f"(in {len(mismatches)} programs)  refused: {len(refused)}  crashed: {len(crashed)}  "
-          f"unmodelled: {unmodelled}  time: {elapsed:.1f} s")
+            fh.write("\n\n".join(sorted(problems + t.refused, key=fuzz_runner.seed_of)) + "\n")
+    fuzz_runner.report(t, problems, args.show, jobs, per_program, SEED_BASE)
     return 1 if problems else 0
 
 
