@@ -944,3 +944,54 @@ def py_eval(t: ir.Term, env: dict):
     if isinstance(t, ir.Ite):
         return py_eval(t.then, env) if py_eval(t.cond, env) else py_eval(t.orelse, env)
     raise TypeError(t)
+
+
+
+# ---------------------------------------------------------------- differential batches
+
+MISMATCH, REFUSED, CRASHED = "mismatch", "refused", "crashed"
+ALL_PROBLEMS = (MISMATCH, REFUSED, CRASHED)
+
+
+class Tally:
+    """What a batch of random programs found: problems by kind (each with its
+    seed and program), how often each kind of CPython outcome was seen, and
+    how many programs and cases ran. Shared by the differential harnesses."""
+
+    def __init__(self) -> None:
+        self.problems = {MISMATCH: [], REFUSED: [], CRASHED: []}
+        self.outcomes: dict = {}
+        self.programs = 0
+        self.cases = 0
+        self.mismatched_cases = 0
+        self.unmodelled_cases = 0  # the translation claims nothing there
+
+    def saw(self, kind: str) -> None:
+        self.outcomes[kind] = self.outcomes.get(kind, 0) + 1
+
+    def merge(self, other: "Tally") -> None:
+        for k in self.problems:
+            self.problems[k].extend(other.problems[k])
+        for k, v in other.outcomes.items():
+            self.outcomes[k] = self.outcomes.get(k, 0) + v
+        self.programs += other.programs
+        self.cases += other.cases
+        self.mismatched_cases += other.mismatched_cases
+        self.unmodelled_cases += other.unmodelled_cases
+
+
+def outcome_kind(result) -> str:
+    """The class name of a returned value, or of the exception raised."""
+    kind, value = result
+    return value.__name__ if kind == "raised" else type(value).__name__
+
+
+def assert_none(tally: Tally, kinds=ALL_PROBLEMS) -> None:
+    """No program of the batch had a problem of these kinds, and every case
+    was a claim (the generators keep away from what is not modelled)."""
+    found = [p for k in kinds for p in tally.problems[k]]
+    what = " or ".join({MISMATCH: "disagree with CPython", REFUSED: "are refused",
+                        CRASHED: "crash the translator"}[k] for k in kinds)
+    assert not found, (f"{len(found)} of {tally.programs} programs {what}\n"
+                       + "\n\n".join(found[:4]))
+    assert tally.unmodelled_cases == 0, f"{tally.unmodelled_cases} cases not modelled"

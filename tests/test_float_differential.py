@@ -74,8 +74,10 @@ import z3
 from refines import fpmath, ir
 from refines.errors import Untranslatable
 
-from semantics_helpers import (UNMODELLED, StatementGenerator, py_eval, read_float, same,
-                               same_float, translated)
+from semantics_helpers import (CRASHED, MISMATCH, REFUSED,  # noqa: F401
+                               UNMODELLED, StatementGenerator, Tally, assert_none,
+                               outcome_kind, py_eval, read_float, same, same_float,
+                               translated)
 
 HEADER = '''\
 import math
@@ -537,32 +539,6 @@ def expressions(depth: int, nan_signs: bool = False):
 
 # ---------------------------------------------------------------- checking
 
-MISMATCH, REFUSED, CRASHED = "mismatch", "refused", "crashed"
-ALL_PROBLEMS = (MISMATCH, REFUSED, CRASHED)
-
-
-class Tally:
-    """What a batch found: problems by kind (each with its seed and program),
-    the kinds of CPython outcome seen, and how many programs and cases ran."""
-
-    def __init__(self) -> None:
-        self.problems = {MISMATCH: [], REFUSED: [], CRASHED: []}
-        self.outcomes: Set[str] = set()
-        self.programs = 0
-        self.cases = 0
-        self.mismatched_cases = 0
-        self.unmodelled_cases = 0  # the translation claims nothing there
-
-    def merge(self, other: "Tally") -> None:
-        for k in self.problems:
-            self.problems[k].extend(other.problems[k])
-        self.outcomes |= other.outcomes
-        self.programs += other.programs
-        self.cases += other.cases
-        self.mismatched_cases += other.mismatched_cases
-        self.unmodelled_cases += other.unmodelled_cases
-
-
 def check_program(source: str, inputs, tally: Tally, seed) -> None:
     """Translate ``source``; compare it with CPython on every input."""
     tally.programs += 1
@@ -581,7 +557,7 @@ def check_program(source: str, inputs, tally: Tally, seed) -> None:
         tally.cases += 1
         expected = t.run(*args)
         kind, value = expected
-        tally.outcomes.add(value.__name__ if kind == "raised" else type(value).__name__)
+        tally.saw(outcome_kind(expected))
         try:
             got = t.predict(*args)
         except AssertionError as exc:  # no single outcome, or no constant value
@@ -604,16 +580,6 @@ def run_batch(seeds, make_source, count: int = 8) -> Tally:
         source = make_source(rnd)
         check_program(source, inputs_for(rnd, count), tally, seed)
     return tally
-
-
-def assert_none(tally: Tally, kinds=ALL_PROBLEMS) -> None:
-    found = [p for k in kinds for p in tally.problems[k]]
-    what = " or ".join({MISMATCH: "disagree with CPython", REFUSED: "are refused",
-                        CRASHED: "crash the translator"}[k] for k in kinds)
-    assert not found, (f"{len(found)} of {tally.programs} programs {what}\n"
-                       + "\n\n".join(found[:4]))
-    # The programs keep NaN signs away from copysign, so every case is a claim.
-    assert tally.unmodelled_cases == 0, f"{tally.unmodelled_cases} cases not modelled"
 
 
 # ---------------------------------------------------------------- the harness itself

@@ -24,14 +24,15 @@ from __future__ import annotations
 
 import dataclasses
 import random
-from typing import List, Sequence, Set, Tuple
+from typing import List, Set
 
 import pytest
 
 from refines.errors import Untranslatable
 
-from semantics_helpers import (UNMODELLED, StatementGenerator, same_shape, same_state, shape,
-                               translated)
+from semantics_helpers import (CRASHED, MISMATCH, REFUSED, UNMODELLED,  # noqa: F401
+                               StatementGenerator, Tally, outcome_kind, same_shape,
+                               same_state, shape, translated)
 
 HEADER = '''\
 from dataclasses import dataclass
@@ -291,39 +292,6 @@ def functions(depth: int):
 
 # ---------------------------------------------------------------- checking
 
-MISMATCH, REFUSED, CRASHED = "mismatch", "refused", "crashed"
-
-
-class Tally:
-    """What a batch found: problems by kind (each with its seed and program),
-    the CPython outcomes by kind, and how many programs and cases ran.
-    Refused programs are counted, not compared (the translator says it does
-    not model them)."""
-
-    def __init__(self) -> None:
-        self.problems = {MISMATCH: [], REFUSED: [], CRASHED: []}
-        self.outcomes: dict = {}
-        self.programs = 0
-        self.cases = 0
-        self.mismatched_cases = 0
-        self.unmodelled_cases = 0
-
-    def merge(self, other: "Tally") -> None:
-        for k in self.problems:
-            self.problems[k].extend(other.problems[k])
-        for k, v in other.outcomes.items():
-            self.outcomes[k] = self.outcomes.get(k, 0) + v
-        self.programs += other.programs
-        self.cases += other.cases
-        self.mismatched_cases += other.mismatched_cases
-        self.unmodelled_cases += other.unmodelled_cases
-
-
-def outcome_kind(result) -> str:
-    kind, value = result
-    return value.__name__ if kind == "raised" else type(value).__name__
-
-
 def check_program(source: str, rnd: random.Random, count: int, tally: Tally, seed) -> None:
     tally.programs += 1
     try:
@@ -340,8 +308,7 @@ def check_program(source: str, rnd: random.Random, count: int, tally: Tally, see
     for args in inputs_for(rnd, t.fn.__globals__["Wallet"], count):
         tally.cases += 1
         expected = t.run_state(*args)
-        kind = outcome_kind(expected[0])
-        tally.outcomes[kind] = tally.outcomes.get(kind, 0) + 1
+        tally.saw(outcome_kind(expected[0]))
         try:
             got = t.predict_state(*args)
         except AssertionError as exc:  # no single outcome, or no constant value

@@ -60,7 +60,9 @@ from refines.errors import Untranslatable
 from refines.verdict import PROVED
 
 from helpers import check_one
-from semantics_helpers import UNMODELLED, StatementGenerator, py_eval, same, translated
+from semantics_helpers import (CRASHED, MISMATCH, REFUSED, UNMODELLED,  # noqa: F401
+                               StatementGenerator, Tally, assert_none, outcome_kind,
+                               py_eval, same, translated)
 
 HEADER = '''\
 PREFIX = 'ab'
@@ -436,39 +438,6 @@ def expressions(depth: int):
 
 # ---------------------------------------------------------------- checking
 
-MISMATCH, REFUSED, CRASHED = "mismatch", "refused", "crashed"
-ALL_PROBLEMS = (MISMATCH, REFUSED, CRASHED)
-
-
-class Tally:
-    """What a batch found: problems by kind (each with its seed and program),
-    how often each kind of CPython outcome was seen, and how many programs and
-    cases ran."""
-
-    def __init__(self) -> None:
-        self.problems = {MISMATCH: [], REFUSED: [], CRASHED: []}
-        self.outcomes: dict = {}
-        self.programs = 0
-        self.cases = 0
-        self.mismatched_cases = 0
-        self.unmodelled_cases = 0
-
-    def merge(self, other: "Tally") -> None:
-        for k in self.problems:
-            self.problems[k].extend(other.problems[k])
-        for k, v in other.outcomes.items():
-            self.outcomes[k] = self.outcomes.get(k, 0) + v
-        self.programs += other.programs
-        self.cases += other.cases
-        self.mismatched_cases += other.mismatched_cases
-        self.unmodelled_cases += other.unmodelled_cases
-
-
-def outcome_kind(result) -> str:
-    kind, value = result
-    return value.__name__ if kind == "raised" else type(value).__name__
-
-
 def check_program(source: str, inputs: Sequence[tuple], tally: Tally, seed) -> None:
     """Translate ``source``; compare it with CPython on every input."""
     tally.programs += 1
@@ -486,8 +455,7 @@ def check_program(source: str, inputs: Sequence[tuple], tally: Tally, seed) -> N
     for args in inputs:
         tally.cases += 1
         expected = t.run(*args)
-        kind = outcome_kind(expected)
-        tally.outcomes[kind] = tally.outcomes.get(kind, 0) + 1
+        tally.saw(outcome_kind(expected))
         try:
             got = t.predict(*args)
         except AssertionError as exc:  # no single outcome, or no constant value
@@ -512,16 +480,6 @@ def run_batch(seeds, make_source, count: int = 8) -> Tally:
         source = make_source(rnd)
         check_program(source, inputs_for(rnd, count), tally, seed)
     return tally
-
-
-def assert_none(tally: Tally, kinds=ALL_PROBLEMS) -> None:
-    found = [p for k in kinds for p in tally.problems[k]]
-    what = " or ".join({MISMATCH: "disagree with CPython", REFUSED: "are refused",
-                        CRASHED: "crash the translator"}[k] for k in kinds)
-    assert not found, (f"{len(found)} of {tally.programs} programs {what}\n"
-                       + "\n\n".join(found[:4]))
-    # Every old string of replace is a non-empty constant: each case is a claim.
-    assert tally.unmodelled_cases == 0, f"{tally.unmodelled_cases} cases not modelled"
 
 
 # ---------------------------------------------------------------- the harness itself
