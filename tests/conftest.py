@@ -10,3 +10,5 @@ import refines.items  # noqa: F401
 import refines.precondition  # noqa: F401
 import refines.prove  # noqa: F401
 import refines.report  # noqa: F401
+import refines.check  # noqa: F401
+import refines.fallback  # noqa: F401  (with hypothesis, which it draws with)

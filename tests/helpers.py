@@ -9,11 +9,11 @@ import textwrap
 from pathlib import Path
 from typing import List
 
-from refines.items import specced_functions
-from refines.prove import check_function
+from refines.check import check_attached, check_function
+from refines.items import attached_specs, specced_functions
 from refines.source import runtime_specs
 
-HEADER = "from refines import refines, old\n\n"
+HEADER = "from refines import attach, refines, old\n\n"
 _counter = itertools.count()
 
 
@@ -30,14 +30,19 @@ def load_module(tmp_path: Path, source: str, header: str = HEADER):
 
 
 def check_source(tmp_path: Path, source: str, timeout: float = 20.0,
-                 header: str = HEADER) -> List:
-    """Every obligation in ``source``, checked, in source order."""
+                 header: str = HEADER, examples: int = 100) -> List:
+    """Every obligation in ``source``, checked, in source order (attached
+    specs last, in the order of their attach calls)."""
     module, path = load_module(tmp_path, source, header)
     results = []
+    show = lambda p: Path(p).name  # noqa: E731
     for fn in specced_functions(module):
         for index in range(len(runtime_specs(fn))):
             results.append(check_function(fn, index, str(path), module.__name__, timeout,
-                                          show=lambda p: Path(p).name))
+                                          show=show, examples=examples))
+    for att in attached_specs(module):
+        results.append(check_attached(att, vars(module), timeout, show=show,
+                                      examples=examples))
     return results
 
 

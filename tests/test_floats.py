@@ -163,8 +163,10 @@ def test_copysign_from_a_nan_is_not_proved(tmp_path):
         def signed(x: float, s: float) -> float:
             return math.copysign(x, s)
         ''')
-    assert r.verdict == "unknown"
+    # Not proved; the tester runs it instead (every float meets this spec).
+    assert r.verdict == "tested"
     assert "NaN" in r.reason and "signed(" in r.reason
+    assert r.testing.examples > 0
     excluded = check_one(tmp_path, '''
         import math
 

@@ -7,7 +7,7 @@ import refines
 
 
 def test_exported_names_are_exactly_these():
-    assert sorted(refines.__all__) == ["old", "refines"]
+    assert sorted(refines.__all__) == ["attach", "old", "refines"]
     for name in refines.__all__:
         assert getattr(refines, name) is not None
 

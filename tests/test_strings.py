@@ -10,7 +10,7 @@ Expected values were confirmed by running CPython 3.11 here.
 
 import pytest
 
-from refines.verdict import PROVED, REFUTED, UNKNOWN
+from refines.verdict import PROVED, REFUTED, TESTED
 
 from helpers import check_one, check_source
 
@@ -120,13 +120,14 @@ def test_startswith_implies_find_is_zero(tmp_path):
 
 def test_replace_is_modelled_but_the_solver_gives_up_honestly(tmp_path):
     # str.replace replaces every occurrence; the solver's procedure for that is
-    # incomplete and stops at once: the verdict says so instead of guessing.
+    # incomplete and stops at once: the verdict says so instead of guessing,
+    # and the claim is tested instead.
     r = check_one(tmp_path, '''
         @refines(lambda label, result: " " not in result)
         def slug(label: str) -> str:
             return label.replace(" ", "_")
         ''')
-    assert r.verdict == UNKNOWN
+    assert r.verdict == TESTED
     assert "gave up" in r.reason and "will not help" in r.hint
 
 
@@ -235,8 +236,12 @@ def test_constants_at_the_top_of_the_alphabet_are_refused(tmp_path):
         def rare(s: str) -> bool:
             return s != "\\U0002A6A5"
         ''')
-    assert r.verdict == UNKNOWN
-    assert "U+1FFFF" in r.reason
+    # Not translated; the tester tries the body's own constants as boundary
+    # values, and that one breaks the spec.
+    assert r.verdict == REFUTED
+    assert r.counterexample.found_by == "testing"
+    assert r.counterexample.inputs == {"s": repr("\U0002A6A5")}
+    assert any("U+1FFFF" in n for n in r.notes)  # why it was tested, not proved
 
 
 @pytest.mark.parametrize("body, expected", [
@@ -244,13 +249,13 @@ def test_constants_at_the_top_of_the_alphabet_are_refused(tmp_path):
     ("return s.count('a') > 0", "str.count"),
     ("return s.strip()", "str.strip"),
 ])
-def test_methods_not_modelled_are_unknown_with_the_method_named(tmp_path, body, expected):
+def test_methods_not_modelled_are_tested_with_the_method_named(tmp_path, body, expected):
     r = check_one(tmp_path, f'''
         @refines(lambda s, result: True)
         def f(s: str):
             {body}
         ''')
-    assert r.verdict == UNKNOWN
+    assert r.verdict == TESTED
     assert expected in r.reason
 
 

@@ -4,6 +4,6 @@ The public surface is deliberately tiny; everything else in this package is
 internal and may change without notice.
 """
 
-from refines.declare import old, refines
+from refines.declare import attach, old, refines
 
-__all__ = ["old", "refines"]
+__all__ = ["attach", "old", "refines"]

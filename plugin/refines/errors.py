@@ -174,6 +174,21 @@ MESSAGES: Dict[str, Message] = {
         "launch = Fleet.Boat.f\n",
         "unsupported",
     ),
+    "no-source": Message(
+        "`{qualname}` has no Python source to translate: {why}",
+        "it is checked by testing; a proof needs a function written in Python",
+        "from math import isqrt\n\n"
+        "attach(isqrt, lambda n, result: result * result <= n,\n"
+        "       assuming=lambda n: n >= 0, hints={'n': int})\n",
+        "unsupported",
+    ),
+    "attach-signature": Message(
+        "the parameters of `{qualname}` cannot be read ({why})",
+        "attach a spec to a function whose signature inspect.signature can read, or "
+        "wrap the call in a function of your own with named, annotated parameters",
+        "attach(max, lambda result: True)\n",
+        "unsupported",
+    ),
     # ---- malformed specs: verdict ``error``
     "spec-form": Message(
         "the {role} must be a lambda or a def that returns one expression",

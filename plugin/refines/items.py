@@ -16,7 +16,7 @@ from typing import Callable, Iterator, List, Optional
 
 import pytest
 
-from refines.declare import SPECS_ATTRIBUTE
+from refines.declare import ATTACHED_ATTRIBUTE, SPECS_ATTRIBUTE
 
 
 class RefinesFailure(Exception):
@@ -47,6 +47,19 @@ def specced_functions(module) -> List[Callable]:
                 found.append(fn)
     found.sort(key=lambda f: inspect.unwrap(f).__code__.co_firstlineno)
     return found
+
+
+def attached_specs(module) -> list:
+    """The specs ``module`` attached with ``attach`` while it was imported."""
+    return list(vars(module).get(ATTACHED_ATTRIBUTE, ()))
+
+
+def attached_name(target: Callable) -> str:
+    """``<module>.<qualname>`` of an attached target (``calendar.isleap``)."""
+    qualname = getattr(target, "__qualname__", None) or getattr(target, "__name__", repr(target))
+    module = getattr(target, "__module__", None) or getattr(
+        getattr(target, "__objclass__", None), "__module__", None) or "builtins"
+    return f"{module}.{qualname}"
 
 
 @contextlib.contextmanager
@@ -95,25 +108,42 @@ class RefinesFile(pytest.File):
                 name = fn.__qualname__ if index == 0 else f"{fn.__qualname__}[{index + 1}]"
                 yield RefinesItem.from_parent(self, name=name, fn=fn, index=index,
                                               module_name=module.__name__)
+        # Specs this file attaches to functions defined elsewhere (attach(...)).
+        seen: dict = {}
+        for att in attached_specs(module):
+            base = attached_name(att.target)
+            seen[base] = seen.get(base, 0) + 1
+            name = base if seen[base] == 1 else f"{base}[{seen[base]}]"
+            yield RefinesItem.from_parent(self, name=name, fn=att.target, index=0,
+                                          module_name=module.__name__, attached=att)
 
 
 class RefinesItem(pytest.Item):
     """One obligation: one ``@refines`` spec of one function."""
 
-    def __init__(self, *, fn: Callable, index: int, module_name: str, **kwargs) -> None:
+    def __init__(self, *, fn: Callable, index: int, module_name: str, attached=None,
+                 **kwargs) -> None:
         super().__init__(**kwargs)
         self.fn = fn
         self.index = index
         self.module_name = module_name
+        self.attached = attached  # a declare.Attached, for a spec attached with attach()
         self.result = None
 
     def runtest(self) -> None:
-        from refines.plugin import USER_PROPERTY, timeout_of
-        from refines.prove import check_function
+        from refines.check import check_attached, check_function
+        from refines.plugin import USER_PROPERTY, examples_of, timeout_of
         from refines.verdict import ERROR, REFUTED, TESTED, UNKNOWN
 
-        result = check_function(self.fn, self.index, str(self.path), self.module_name,
-                                timeout_of(self.config), show=self.show)
+        if self.attached is not None:
+            module = sys.modules.get(self.module_name)
+            result = check_attached(self.attached, vars(module) if module else {},
+                                    timeout_of(self.config), show=self.show,
+                                    examples=examples_of(self.config))
+        else:
+            result = check_function(self.fn, self.index, str(self.path), self.module_name,
+                                    timeout_of(self.config), show=self.show,
+                                    examples=examples_of(self.config))
         self.result = result
         # JSON text: readable in --junitxml properties, and plain data for xdist.
         self.user_properties.append((USER_PROPERTY, json.dumps(
@@ -149,5 +179,7 @@ class RefinesItem(pytest.Item):
         return super().repr_failure(excinfo)
 
     def reportinfo(self):
+        if self.attached is not None:
+            return self.path, self.attached.line - 1, f"refines: {self.name}"
         line: Optional[int] = inspect.unwrap(self.fn).__code__.co_firstlineno - 1
         return self.path, line, f"refines: {self.name}"

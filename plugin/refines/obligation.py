@@ -65,6 +65,16 @@ def translate_spec_for(ob: Obligation) -> Spec:
     return Spec(assuming, raises, relation)
 
 
+def translate_assuming(ob: Obligation) -> ir.Term:
+    """Where ``assuming`` holds (and does not raise), over the parameters."""
+    if ob.assuming is None:
+        return ir.TRUE
+    part = ob.assuming
+    pre = {p.name: ir.initial(p) for p in ob.params}
+    return translate_spec(part.body, {n: pre[n] for n in part.params},
+                          Scope(part.globals, part.params), part.role).holds
+
+
 def allowed(spec: Spec, outcome: ir.Outcome, relation: Optional[SpecValue] = None) -> ir.Term:
     """Where ``outcome`` (if it happens) meets the spec."""
     if not outcome.returns:

@@ -17,6 +17,7 @@ import pytest
 PATHS_KEY = pytest.StashKey[List[Path]]()
 USER_PROPERTY = "refines"
 DEFAULT_TIMEOUT = 10.0
+DEFAULT_EXAMPLES = 100
 
 
 def pytest_addoption(parser: pytest.Parser) -> None:
@@ -32,6 +33,10 @@ def pytest_addoption(parser: pytest.Parser) -> None:
         "--refines-report", default=None, metavar="PATH",
         help="write the verdicts as JSON (schema refines-report/1) to PATH")
     group.addoption(
+        "--refines-examples", type=int, default=None, metavar="N",
+        help=f"examples drawn when an obligation is tested rather than proved "
+             f"(default {DEFAULT_EXAMPLES}; the solver's inputs and boundary values come on top)")
+    group.addoption(
         "--refines-strict", action="store_true", default=False,
         help="fail obligations that are only tested or unknown, not proved")
     parser.addini(
@@ -40,6 +45,9 @@ def pytest_addoption(parser: pytest.Parser) -> None:
     parser.addini(
         "refines_timeout", default=str(DEFAULT_TIMEOUT),
         help="solver budget per obligation in seconds")
+    parser.addini(
+        "refines_examples", default=str(DEFAULT_EXAMPLES),
+        help="examples drawn when an obligation is tested rather than proved")
 
 
 def pytest_configure(config: pytest.Config) -> None:
@@ -66,6 +74,9 @@ def pytest_configure(config: pytest.Config) -> None:
     if timeout <= 0:
         raise pytest.UsageError(f"--refines-timeout must be a positive number of seconds, "
                                 f"got {timeout:g}")
+    if examples_of(config) < 1:
+        raise pytest.UsageError(f"--refines-examples must be at least 1, "
+                                f"got {examples_of(config)}")
 
     # Specs are collected even when no test path names them: the ini paths are
     # added unless the user named what to run; --refines-path always is.
@@ -98,6 +109,18 @@ def timeout_of(config: pytest.Config) -> float:
                 f"refines_timeout in {config.inipath}: expected seconds as a number, "
                 f"got {config.getini('refines_timeout')!r}") from None
     return float(value)
+
+
+def examples_of(config: pytest.Config) -> int:
+    value = config.getoption("refines_examples")
+    if value is None:
+        try:
+            value = int(config.getini("refines_examples"))
+        except ValueError:
+            raise pytest.UsageError(
+                f"refines_examples in {config.inipath}: expected a whole number, "
+                f"got {config.getini('refines_examples')!r}") from None
+    return int(value)
 
 
 def pytest_collect_file(file_path: Path, parent: pytest.Collector):

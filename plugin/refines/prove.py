@@ -12,11 +12,10 @@ on what else ran in the process (or on xdist's scheduling).
 
 from __future__ import annotations
 
-import inspect
 import math
 import time
 import traceback
-from typing import Any, Callable
+from typing import Any, Callable, List, Optional, Tuple, Union
 
 import z3
 
@@ -24,9 +23,10 @@ from refines import fpmath, heap, ir, precondition, replay, solve, strmath
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering, read_int
 from refines.obligation import Spec, translate_spec_for, violations
+from refines.regression import regression_test
 from refines.source import Obligation
 from refines.translate import Scope, translate_body
-from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Result
+from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Result, Undecided
 
 # The budget is counted in z3 resource units, not seconds: unlike a
 # wall-clock timeout, a resource limit gives the same verdict however loaded
@@ -38,6 +38,8 @@ RLIMIT_PER_SECOND = 8_000_000
 BACKSTOP = 2.0
 # The share of the budget one query of the precondition's clean-up may spend.
 PER_SIMPLIFICATION = 0.05
+# Seconds a replay of the solver's counterexample may run (the watchdog).
+RUN_LIMIT = 1.0
 
 
 class Budget:
@@ -153,16 +155,27 @@ class Solver:
         return obj
 
 
-def check(ob: Obligation, timeout: float) -> Result:
-    """The verdict on one obligation, within ``timeout`` seconds of solving."""
+def prove(ob: Obligation, timeout: float) -> Union[Result, Undecided]:
+    """The verdict on one obligation, within ``timeout`` seconds of solving,
+    or what the solver leaves undecided (for the tester to take up)."""
     start = time.perf_counter()
     result = _base(ob)
+    budget = Budget(timeout)
     try:
-        result = _check(ob, Budget(timeout), result)
+        if ob.untranslated is not None:
+            raise ob.untranslated
+        outcome = _check(ob, budget, result)
+    except Untranslatable as exc:
+        outcome = Undecided(
+            reason=f"not translated: {exc.text} ({ob.where(ob.path, exc.line)})",
+            hint=exc.hint, message_key=exc.key,
+            seeds=allowed_inputs(ob, timeout) if ob.params is not None else [])
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         _record(result, exc, ob.path, ob.show, f"checking {ob.function}", ob.line)
-    result.seconds = time.perf_counter() - start
-    return result
+        outcome = result
+    if isinstance(outcome, Result):
+        outcome.seconds = time.perf_counter() - start
+    return outcome
 
 
 def _record(result: Result, exc: Exception, path: str, show: Callable[[str], str],
@@ -205,34 +218,57 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     found = violations(behaviour, spec)
     status, model, why = solver.check(spec.assuming.holds,
                                       ir.or_(*(v.term for v in found)))
+    untranslated = tuple(getattr(behaviour, "untranslated", ()))
     if status == z3.unsat:
         gap = _unmodelled(ob, behaviour, spec, solver)
         if gap is not None:
-            result.verdict, result.reason = UNKNOWN, gap
-            result.hint = "exclude those inputs with assuming=, or check them by testing"
-            return result
+            reason, seeds = gap
+            return Undecided(reason, "exclude those inputs with assuming=, or leave them "
+                                     "to testing", None, seeds + allowed_inputs(ob, budget.seconds, spec),
+                             notes=list(result.notes))
         result.verdict = PROVED
+        if untranslated:
+            result.notes.append("untranslated: proved whatever these parts do: "
+                                + "; ".join(untranslated))
         return result
     if status == z3.unknown:
-        result.verdict = UNKNOWN
         if "incomplete" in (why or ""):
             # Not a matter of time: the solver's procedure stops short of an
             # answer for this formula (e.g. str.replace over strings of any length).
-            result.reason = f"the solver gave up without an answer ({why})"
-            result.hint = ("a longer budget will not help; bound the inputs in assuming=, "
-                           "or leave this claim to tests")
+            reason = f"the solver gave up without an answer ({why})"
+            hint = ("a longer budget will not help; bound the inputs in assuming=, "
+                    "or leave this claim to tests")
         else:
-            result.reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
-            result.hint = "raise --refines-timeout, or split the function"
-        return result
+            reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
+            hint = "raise --refines-timeout, or split the function"
+        return Undecided(reason, hint, None, allowed_inputs(ob, budget.seconds, spec),
+                         notes=list(result.notes))
 
     inputs = solver.inputs(model, ob.params)
     predicted = _predicted(solver, model, behaviour)
     call = replay.call_text(ob, inputs)
     shown = {k: replay.shown(v) for k, v in inputs.items()}
     pre = replay.before(inputs)
-    actual = replay.run(ob, inputs)
+    try:
+        with replay.watchdog(RUN_LIMIT):
+            actual = replay.run(ob, inputs)
+    except replay.Overrun:
+        return Undecided(f"the solver's counterexample {call} did not finish within "
+                         f"{RUN_LIMIT:g} s when run", None, None,
+                         [("solver", pre)] + allowed_inputs(ob, budget.seconds, spec),
+                         notes=list(result.notes))
     judgement = replay.judge(ob, inputs, actual, pre)
+    if (judgement.holds or not replay.assuming_holds(ob, pre)) and untranslated:
+        # The solver chose what the untranslated parts do; the real parts did
+        # otherwise. Not a translation error: the question goes to testing,
+        # starting from inputs where those parts could break the spec.
+        seeds = [("solver", replay.before(pre))] + violating_inputs(
+            ob, solver, [spec.assuming.holds, ir.or_(*(v.term for v in found))], model)
+        return Undecided(
+            f"the solver's counterexample {call} depends on what untranslated parts "
+            f"do ({'; '.join(untranslated)}), and the real call {actual.describe()}, "
+            "which meets the spec", None, None,
+            seeds + allowed_inputs(ob, budget.seconds, spec), notes=list(result.notes))
     if judgement.holds or not replay.assuming_holds(ob, pre):
         result.verdict = ERROR
         result.reason = (
@@ -253,8 +289,14 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     result.counterexample = Counterexample(
         inputs=shown, call=call, outcome=actual.outcome, confirmed=True,
         violated=judgement.violated, violated_at=judgement.violated_at,
-        detail=judgement.detail or (str(actual.raised) if actual.raised else ""))
+        detail=judgement.detail or (str(actual.raised) if actual.raised else ""),
+        regression_test=regression_test(ob, replay.before(pre), RUN_LIMIT))
 
+    if untranslated:
+        result.precondition_note = ("not computed: the exact precondition would range over "
+                                    "what untranslated parts do (" + "; ".join(untranslated)
+                                    + "), which this release does not eliminate")
+        return result
     if any(o.unmodelled for o in behaviour.outcomes):
         result.precondition_note = ("not computed: part of the behaviour is not modelled "
                                     "(" + next(o.unmodelled for o in behaviour.outcomes
@@ -289,9 +331,9 @@ def _unmodelled(ob: Obligation, behaviour: ir.Behaviour, spec, solver: Solver):
         where = ob.where(ob.path, o.line)
         if status == z3.sat:
             inputs = solver.inputs(model, ob.params)
-            return (f"not proved: {o.unmodelled} ({where}) happens for "
-                    f"{replay.call_text(ob, inputs)}; every other outcome meets the spec")
-        return f"not proved: {o.unmodelled} ({where}) may happen"
+            return (f"{o.unmodelled} ({where}) for {replay.call_text(ob, inputs)}, and "
+                    f"every other outcome meets the spec", [("solver", inputs)])
+        return f"{o.unmodelled} ({where}) may happen", []
     return None
 
 
@@ -325,23 +367,86 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
     return None
 
 
-def check_function(fn, index: int, path: str, module: str, timeout: float,
-                   show: Callable[[str], str] = str) -> Result:
-    """Read the ``index``-th spec of ``fn`` from source and check it.
+# Inputs the solver hands to the tester: how many of each kind, and the share
+# of the obligation's budget (at most SEED_SECONDS) they may spend.
+SEEDS = 8
+SEED_SHARE = 0.2
+SEED_SECONDS = 2.0
 
-    ``show`` turns file paths into the form the report uses.
-    """
-    from refines.source import read_obligation
 
-    start = time.perf_counter()
-    written = inspect.unwrap(fn)  # the function as written, under any wrapper
-    base = Result(verdict=ERROR, function=f"{module}.{written.__qualname__}", path=show(path),
-                  line=written.__code__.co_firstlineno)
+def allowed_inputs(ob: Obligation, seconds: float, spec: Optional[Spec] = None
+                   ) -> List[Tuple[str, dict]]:
+    """Diverse inputs that satisfy ``assuming``, from the solver: the tester
+    starts from them, so a narrow precondition wastes no draws. Empty when
+    there is no ``assuming`` or it cannot be translated."""
+    if ob.assuming is None or ob.params is None:
+        return []
     try:
-        ob = read_obligation(fn, index, path, module, show)
-    except Exception as exc:  # noqa: BLE001 -- never crash the session
-        _record(base, exc, path, show, f"reading the spec of {base.function}", base.line)
-    else:
-        return check(ob, timeout)
-    base.seconds = time.perf_counter() - start
-    return base
+        if spec is None:
+            from refines.obligation import translate_assuming
+
+            holds = translate_assuming(ob)
+        else:
+            holds = spec.assuming.holds
+        solver = Solver(Budget(min(SEED_SECONDS, seconds * SEED_SHARE)))
+        solver.per_query = solver.budget.seconds / (2 * SEEDS)
+        return [("assuming", i) for i in diverse(solver, ob.params, [holds], SEEDS)]
+    except Exception:  # noqa: BLE001 -- seeds are an aid; testing goes on without them
+        return []
+
+
+def violating_inputs(ob: Obligation, solver: Solver, terms: list, model) -> List[Tuple[str, dict]]:
+    """More inputs on which the translation allows the spec to break (the
+    first one, ``model``, excluded): candidates for the tester to replay."""
+    try:
+        solver.per_query = max(0.05, solver.budget.seconds * PER_SIMPLIFICATION)
+        first = solver.inputs(model, ob.params)
+        return [("solver", i) for i in diverse(solver, ob.params, terms, SEEDS, [first])]
+    except Exception:  # noqa: BLE001 -- seeds are an aid; testing goes on without them
+        return []
+
+
+def diverse(solver: Solver, params, terms: list, count: int, seen=()) -> List[dict]:
+    """Up to ``count`` models of ``terms`` with pairwise different parameters,
+    steered apart: each new one is pushed beyond the magnitude of the last on
+    one int parameter in turn (alternating sign), when that is satisfiable."""
+    blocks = [b for b in (_differs(params, i) for i in seen) if b is not None]
+    ints = [p for p in params if p.sort == ir.INT and not p.optional]
+    out: List[dict] = []
+    for k in range(2 * count):
+        if len(out) >= count:
+            break
+        push = None
+        if ints and out:
+            p = ints[k % len(ints)]
+            bound = 4 * abs(out[-1][p.name]) + 1
+            push = (ir.cmp(">", p, ir.const(bound)) if k % 2 == 0
+                    else ir.cmp("<", p, ir.const(-bound)))
+        status, model, _ = solver.check(*terms, *blocks, *([push] if push is not None else []))
+        if status != z3.sat and push is not None:
+            status, model, _ = solver.check(*terms, *blocks)
+        if status != z3.sat:
+            break
+        inputs = solver.inputs(model, params)
+        out.append(inputs)
+        block = _differs(params, inputs)
+        if block is None:
+            break  # nothing to tell models apart by: one is all there is
+        blocks.append(block)
+    return out
+
+
+def _differs(params, inputs: dict) -> Optional[ir.Term]:
+    """A term that excludes exactly these values of the scalar parameters."""
+    parts = []
+    for p in params:
+        value = inputs.get(p.name)
+        if p.sort == ir.REF or p.optional or value is None:
+            continue
+        if p.sort == ir.FLOAT and value != value:
+            parts.append(ir.not_(ir.op("isnan", p, sort=ir.BOOL)))
+        elif p.sort == ir.STR and any(ord(c) > strmath.SOLVER_MAX_CODE_POINT for c in value):
+            continue
+        else:
+            parts.append(ir.cmp("!=", p, ir.const(value)))
+    return ir.or_(*parts) if parts else None

@@ -8,8 +8,11 @@ is an independent check of what the translator predicted.
 from __future__ import annotations
 
 import ast
+import contextlib
 import copy
 import math
+import signal
+import threading
 from dataclasses import dataclass
 from typing import Any, Dict, List, Optional, Tuple
 
@@ -50,11 +53,11 @@ class Judgement:
 
 def call_args(ob: Obligation, inputs: Dict[str, Any]) -> Tuple[list, dict]:
     args, kwargs = [], {}
-    for p, kind in zip(ob.params, ob.kinds):
+    for name, kind in zip(ob.names, ob.kinds):
         if kind in ("positional-only", "positional"):
-            args.append(inputs[p.name])
+            args.append(inputs[name])
         else:
-            kwargs[p.name] = inputs[p.name]
+            kwargs[name] = inputs[name]
     return args, kwargs
 
 
@@ -83,15 +86,19 @@ def shared(ob: Obligation, inputs: Dict[str, Any]) -> Dict[str, str]:
     (name -> that earlier name): aliasing, which a repr cannot show."""
     first: Dict[int, str] = {}
     out = {}
-    for p in ob.params:
-        if p.sort != "ref":
-            continue
-        key = id(inputs[p.name])
+    for name in ob.names:
+        value = inputs[name]
+        if value is None or isinstance(value, _IMMUTABLE):
+            continue  # sharing one int or str is not aliasing: nothing can change it
+        key = id(value)
         if key in first:
-            out[p.name] = first[key]
+            out[name] = first[key]
         else:
-            first[key] = p.name
+            first[key] = name
     return out
+
+
+_IMMUTABLE = (bool, int, float, complex, str, bytes, tuple, frozenset, type(Ellipsis))
 
 
 def call_text(ob: Obligation, inputs: Dict[str, Any]) -> str:
@@ -100,12 +107,12 @@ def call_text(ob: Obligation, inputs: Dict[str, Any]) -> str:
     alias = shared(ob, inputs)
     named = set(alias.values())
     parts = []
-    for p, kind in zip(ob.params, ob.kinds):
-        text = alias.get(p.name) or (p.name if p.name in named else literal(inputs[p.name]))
-        parts.append(text if kind == "positional-only" else f"{p.name}={text}")
+    for name, kind in zip(ob.names, ob.kinds):
+        text = alias.get(name) or (name if name in named else literal(inputs[name]))
+        parts.append(text if kind == "positional-only" else f"{name}={text}")
     prefix = "".join(f"{n} = {literal(inputs[n])}; " for n in sorted(named))
-    name = ob.fn.__name__ if "." not in ob.fn.__qualname__ else ob.fn.__qualname__
-    return f"{prefix}{name}({', '.join(parts)})"
+    call = f"{ob.call_name}({', '.join(parts)})"
+    return f"{prefix}asyncio.run({call})" if ob.is_async else prefix + call
 
 
 def before(inputs: Dict[str, Any]) -> Dict[str, Any]:
@@ -114,11 +121,50 @@ def before(inputs: Dict[str, Any]) -> Dict[str, Any]:
     return copy.deepcopy(inputs)
 
 
+class Overrun(BaseException):
+    """A run stopped by the watchdog (a BaseException, so that the function's
+    own ``except Exception`` cannot swallow it)."""
+
+
+@contextlib.contextmanager
+def watchdog(seconds: Optional[float]):
+    """Stop what runs inside after ``seconds`` by raising ``Overrun`` in it.
+
+    A signal timer, so only in the main thread of a platform that has one
+    (not Windows); and not when a timer is already set (pytest-timeout's, for
+    one), which keeps its own limit. Elsewhere this does nothing: a run that
+    never ends then blocks the session, as a test that never ends does."""
+    usable = (seconds is not None and hasattr(signal, "setitimer")
+              and threading.current_thread() is threading.main_thread()
+              and signal.getitimer(signal.ITIMER_REAL)[0] == 0)
+    if not usable:
+        yield
+        return
+    armed = [True]
+
+    def alarm(signum, frame):
+        if armed[0]:
+            raise Overrun()
+
+    previous = signal.signal(signal.SIGALRM, alarm)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        yield
+    finally:
+        armed[0] = False
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+
+
 def run(ob: Obligation, inputs: Dict[str, Any]) -> Run:
     args, kwargs = call_args(ob, inputs)
     try:
+        if ob.is_async:
+            import asyncio
+
+            return Run(returned=asyncio.run(ob.fn(*args, **kwargs)))
         return Run(returned=ob.fn(*args, **kwargs))
-    except KeyboardInterrupt:
+    except (KeyboardInterrupt, Overrun):
         raise
     except BaseException as exc:  # noqa: BLE001 -- every exception is an outcome
         return Run(raised=exc)

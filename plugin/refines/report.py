@@ -15,8 +15,9 @@ def render(result: Result, strict: bool = False) -> str:
     lines = [head]
     ce = result.counterexample
     if result.verdict == REFUTED and ce is not None:
+        how = "found by testing, " if ce.found_by == "testing" else ""
         lines.append("  the spec does not hold; counterexample "
-                     + ("(confirmed by running the function):" if ce.confirmed
+                     + (f"({how}confirmed by running the function):" if ce.confirmed
                         else "(NOT confirmed by running the function):"))
         lines.append(f"      {ce.call}")
         if "raised" in ce.outcome:
@@ -36,9 +37,15 @@ def render(result: Result, strict: bool = False) -> str:
             lines.append(f"  suggested:           assuming={result.suggested_assuming}")
         if result.precondition_note:
             lines.append(f"  note: {result.precondition_note}")
+        if ce.regression_test:
+            lines.append("  regression test (paste it into your tests; it fails until "
+                         "the bug is fixed):")
+            lines.extend("      " + line for line in ce.regression_test.rstrip().splitlines())
     else:
         if result.reason:
             lines.append(f"  {result.reason}")
+        if result.testing is not None:
+            lines.append(f"  tested on {result.testing.describe()}: none broke the spec")
         if strict and result.verdict in (TESTED, UNKNOWN):
             lines.append("  (failed because --refines-strict asks for a proof)")
     if result.hint:
@@ -71,10 +78,15 @@ def summary_lines(results: List[dict]) -> List[str]:
         for r in results:
             if r["verdict"] == verdict:
                 why = f" -- {r['reason']}" if r.get("reason") else ""
+                if verdict == TESTED and r.get("testing"):
+                    why = f" -- {r['testing']['examples']} examples passed; {r.get('reason')}"
+                if verdict == REFUTED and (r.get("counterexample") or {}).get("found_by") \
+                        == "testing":
+                    why = " -- found by testing"
                 lines.append(f"{label}: {r['nodeid']}{why}")
-    for r in results:  # a proof that rests on an assumption says which
-        for note in r.get("notes") or ():
-            if r["verdict"] == "proved" and note.startswith("assumed: "):
+    for r in results:  # a proof that rests on an assumption, or on parts left
+        for note in r.get("notes") or ():  # untranslated, says which
+            if r["verdict"] == "proved" and note.startswith(("assumed: ", "untranslated: ")):
                 lines.append(f"proved, {note}: {r['nodeid']}")
     c = counts(results)
     lines.append("refines: " + ", ".join(f"{c[v]} {v}" for v in VERDICTS))

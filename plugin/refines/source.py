@@ -10,6 +10,7 @@ from __future__ import annotations
 import builtins
 import inspect
 import os
+import types
 import typing
 from dataclasses import dataclass
 from typing import Callable, Dict, List, Optional, Tuple
@@ -40,20 +41,29 @@ class SpecPart:
 
 @dataclass(frozen=True)
 class Obligation:
-    """Everything needed to check one ``@refines`` spec of one function."""
+    """Everything needed to check one spec of one function: by proof when its
+    body can be translated, by testing when it can be called."""
 
-    fn: Callable
+    fn: Callable  # what a run calls: the function, the wrapper, the attached target
     qualname: str
     module: str
-    path: str
-    line: int  # line of the @refines decorator
-    fn_node: nodes.FunctionDef
-    params: Tuple[ir.Var, ...]
+    path: str  # the file that holds the spec
+    line: int  # line of the @refines decorator (or of the attach call)
+    names: Tuple[str, ...]  # the parameters, in order
     kinds: Tuple[str, ...]  # "positional-only" / "positional" / "keyword" per parameter
+    hints: Tuple[object, ...]  # each parameter's type hint at run time (None: none)
     relation: SpecPart
     assuming: Optional[SpecPart]
     raises: Tuple[Tuple[type, SpecPart], ...]
     show: Callable[[str], str] = str  # a file path as the report shows it
+    # For a proof: the body and the parameters' sorts. Both are None when the
+    # function cannot be translated, and ``untranslated`` says why.
+    fn_node: Optional[nodes.FunctionDef] = None
+    params: Optional[Tuple[ir.Var, ...]] = None
+    untranslated: Optional[Untranslatable] = None
+    untestable: str = ""  # why it cannot be called with generated arguments
+    call_name: str = ""  # how a call to it is written (``fee``, ``Account.pay``)
+    is_async: bool = False
 
     def where(self, path: str, line: int) -> str:
         return f"{self.show(path)}:{line}"
@@ -64,7 +74,7 @@ class Obligation:
 
     @property
     def param_names(self) -> Tuple[str, ...]:
-        return tuple(p.name for p in self.params)
+        return self.names
 
 
 _MODULE_CACHE: Dict[Tuple[str, int, int], Tuple[nodes.Module, List[bytes]]] = {}
@@ -123,30 +133,18 @@ def _resolves_to(expr: nodes.NodeNG, globals_: dict, target: object) -> bool:
 
 
 def find_function(fn: Callable, path: str) -> Tuple[nodes.FunctionDef, List[bytes]]:
-    if getattr(fn, "__wrapped__", None) is not None:
-        inner = inspect.unwrap(fn)
-        raise Untranslatable("wrapped", inner.__code__.co_firstlineno,
-                             {"qualname": inner.__qualname__})
+    """The ``def`` of ``fn`` (the function as written) in ``path``, at any depth."""
     module, lines = parse_file(path)
-    qualname = fn.__qualname__
-    body = module.body
-    if qualname.count(".") == 1 and "<locals>" not in qualname:
-        # A method of a module-level class: look in the class body.
-        owner = [n for n in module.body
-                 if isinstance(n, nodes.ClassDef) and n.name == qualname.split(".")[0]]
-        body = owner[-1].body if owner else []
-    elif "." in qualname:
-        raise Untranslatable("nested", fn.__code__.co_firstlineno, {"qualname": qualname})
     first_line = fn.__code__.co_firstlineno
-    candidates = [n for n in body
-                  if isinstance(n, nodes.FunctionDef) and n.name == fn.__name__]
+    candidates = [n for n in module.nodes_of_class(nodes.FunctionDef)
+                  if n.name == fn.__name__]
     for n in candidates:
         starts = [n.lineno] + [d.lineno for d in (n.decorators.nodes if n.decorators else [])]
         if first_line in starts:
             return n, lines
     if candidates:
         return candidates[-1], lines
-    raise Untranslatable("statement", first_line, {"construct": "function without source"})
+    raise Untranslatable("no-source", first_line, {"qualname": fn.__qualname__})
 
 
 def read_obligation(fn: Callable, index: int, path: str, module: str,
@@ -154,10 +152,13 @@ def read_obligation(fn: Callable, index: int, path: str, module: str,
     """Pair the ``index``-th (0-based, source order) spec of ``fn`` with its source.
 
     ``show`` turns a file path into the form reports use (relative to the rootdir).
+    The spec is always read; the body and the parameters' sorts only when they
+    can be translated (``Obligation.untranslated`` says why not).
     """
-    fn_node, lines = find_function(fn, path)
+    written = inspect.unwrap(fn)  # the function as written, under any wrapper
+    fn_node, lines = find_function(written, path)
     specs = runtime_specs(fn)
-    globals_ = fn.__globals__
+    globals_ = written.__globals__
     decorators = [d for d in (fn_node.decorators.nodes if fn_node.decorators else [])
                   if isinstance(d, nodes.Call) and _resolves_to(d.func, globals_, refines)]
     if len(decorators) != len(specs):
@@ -165,17 +166,162 @@ def read_obligation(fn: Callable, index: int, path: str, module: str,
             "runtime": len(specs), "source": len(decorators), "qualname": fn.__qualname__},
             path=path)
     call = decorators[index]
-    spec = specs[index]
-    if isinstance(fn_node, nodes.AsyncFunctionDef):
-        raise Untranslatable("async", fn_node.lineno, {"qualname": fn.__qualname__})
-    params, kinds = read_params(fn_node, globals_)
-    names = tuple(p.name for p in params)
+    names, kinds, hints, untestable = runtime_params(fn, _method_of(fn_node, globals_))
     if "result" in names:
         raise SpecError("spec-result-param", fn_node.lineno, path=path)
+    relation, assuming, raises = read_spec_parts(call, call.args[:1], specs[index], names,
+                                                 path, lines)
+    params, untranslated = None, None
+    try:
+        if written is not fn:
+            raise Untranslatable("wrapped", written.__code__.co_firstlineno,
+                                 {"qualname": written.__qualname__})
+        if "<locals>" in fn.__qualname__ or fn.__qualname__.count(".") > 1:
+            raise Untranslatable("nested", fn.__code__.co_firstlineno,
+                                 {"qualname": fn.__qualname__})
+        if isinstance(fn_node, nodes.AsyncFunctionDef):
+            raise Untranslatable("async", fn_node.lineno, {"qualname": fn.__qualname__})
+        params, _ = read_params(fn_node, globals_)
+    except Untranslatable as exc:
+        untranslated = exc
+    return Obligation(
+        fn=fn, qualname=fn.__qualname__, module=module, path=path, line=call.lineno,
+        names=names, kinds=kinds, hints=hints, relation=relation, assuming=assuming,
+        raises=raises, show=show, fn_node=None if untranslated else fn_node,
+        params=params, untranslated=untranslated, untestable=untestable,
+        call_name=fn.__name__ if "." not in fn.__qualname__ else fn.__qualname__,
+        is_async=inspect.iscoroutinefunction(written))
 
-    if not call.args:
+
+def read_attached(att, globals_: dict, show: Callable[[str], str] = str) -> Obligation:
+    """The obligation of a spec attached with ``attach`` (``refines.declare.Attached``):
+    the spec from the ``attach(...)`` call in the attaching file, the function
+    from wherever it is defined. ``globals_`` are the attaching module's."""
+    target = att.target
+    qualname = getattr(target, "__qualname__", None) or getattr(target, "__name__", repr(target))
+    module = getattr(target, "__module__", None) or getattr(
+        getattr(target, "__objclass__", None), "__module__", None) or "builtins"
+    tree, lines = parse_file(att.path)
+    calls = [c for c in tree.nodes_of_class(nodes.Call)
+             if c.lineno <= att.line <= (c.end_lineno or c.lineno)
+             and _resolves_to(c.func, globals_, _attach_function())]
+    calls.sort(key=lambda c: (c.lineno != att.line, c.lineno))
+    if not calls:
+        raise SpecError("spec-form", att.line, {"role": "attached spec"}, path=att.path)
+    call = calls[0]
+    self_class = _owner_class(target, module, qualname)
+    try:
+        names, kinds, hints, untestable = runtime_params(target, self_class, att.hints)
+    except (ValueError, TypeError) as exc:
+        raise Untranslatable("attach-signature", att.line,
+                             {"qualname": qualname, "why": str(exc)}) from None
+    unknown = sorted(set(att.hints) - set(names))
+    if unknown:
+        raise SpecError("spec-names", call.lineno, {
+            "role": "hints", "name": unknown[0], "allowed_what": "a parameter of the function",
+            "allowed": ", ".join(names)}, path=att.path)
+    if "result" in names:
+        raise SpecError("spec-result-param", call.lineno, path=att.path)
+    relation, assuming, raises = read_spec_parts(call, call.args[1:2], att.spec, names,
+                                                 att.path, lines)
+    fn_node, params, untranslated = None, None, None
+    try:
+        written = inspect.unwrap(target)
+        if not inspect.isfunction(target) or written is not target:
+            raise Untranslatable("no-source", att.line, {
+                "qualname": qualname,
+                "why": ("a wrapper made by a decorator" if written is not target
+                        else "built into the interpreter or written in C")})
+        source_path = inspect.getsourcefile(target)
+        if not source_path or not os.path.exists(source_path):
+            raise Untranslatable("no-source", att.line, {
+                "qualname": qualname, "why": "its source file is not installed"})
+        if "<locals>" in qualname or qualname.count(".") > 1:
+            raise Untranslatable("nested", att.line, {"qualname": qualname})
+        fn_node, _ = find_function(target, source_path)
+        if isinstance(fn_node, nodes.AsyncFunctionDef):
+            raise Untranslatable("async", att.line, {"qualname": qualname})
+        params = params_from_hints(names, hints, fn_node, att.line)
+    except Untranslatable as exc:
+        fn_node, params, untranslated = None, None, exc
+    return Obligation(
+        fn=target, qualname=qualname, module=module, path=att.path, line=call.lineno,
+        names=names, kinds=kinds, hints=hints, relation=relation, assuming=assuming,
+        raises=raises, show=show, fn_node=fn_node, params=params,
+        untranslated=untranslated, untestable=untestable, call_name=qualname,
+        is_async=inspect.iscoroutinefunction(target))
+
+
+def _attach_function():
+    from refines.declare import attach
+
+    return attach
+
+
+def _owner_class(target: Callable, module: str, qualname: str) -> Optional[type]:
+    """The class ``target`` is a plain method of (its first parameter is an
+    instance of it), if it is one."""
+    import sys
+
+    if qualname.count(".") != 1 or "<" in qualname:
+        return None
+    owner = getattr(sys.modules.get(module), qualname.split(".")[0], None)
+    if owner is None:
+        owner = getattr(target, "__objclass__", None)
+    if not isinstance(owner, type):
+        return None
+    raw = owner.__dict__.get(qualname.split(".")[1])
+    if isinstance(raw, (staticmethod, classmethod)):
+        return None
+    return owner
+
+
+def params_from_hints(names: Tuple[str, ...], hints: Tuple[object, ...], fn_node,
+                      line: int) -> Tuple[ir.Var, ...]:
+    """The parameters' sorts from run-time type hints (for attached targets,
+    whose hints may come from ``attach(hints=...)``)."""
+    params = []
+    for name, hint in zip(names, hints):
+        if hint is None:
+            raise Untranslatable("param-untyped", line, {"name": name})
+        found = runtime_sort(hint)
+        if found is None:
+            raise Untranslatable("param-type", line, {
+                "name": name, "hint_text": getattr(hint, "__name__", None) or str(hint)})
+        params.append(ir.Var(name, *found))
+    _one_list_kind(params, line)
+    return tuple(params)
+
+
+def runtime_sort(hint: object):
+    """``(sort, optional, kind)`` for a run-time type hint, or None if it is not
+    modelled (the run-time twin of ``_hint``)."""
+    origin, args = typing.get_origin(hint), typing.get_args(hint)
+    if origin is typing.Union or origin is types.UnionType:
+        members = [a for a in args if a is not type(None)]
+        if len(members) != 1 or len(members) == len(args):
+            return None
+        found = runtime_sort(members[0])
+        if found is None or found[0] == ir.REF:
+            return None
+        return found[0], True, ""
+    if isinstance(hint, type) and hint in _SORTS:
+        return _SORTS[hint], False, ""
+    if origin in (list, typing.List) and len(args) == 1 and args[0] in heap.LIST_ELEMENTS:
+        return ir.REF, False, heap.list_kind(heap.LIST_ELEMENTS[args[0]])
+    if isinstance(hint, type) and hint.__module__ not in ("builtins", "typing"):
+        kind = heap.class_kind(hint)
+        return None if kind is None else (ir.REF, False, kind)
+    return None
+
+
+def read_spec_parts(call: nodes.Call, relation_args: list, spec: Spec,
+                    names: Tuple[str, ...], path: str, lines: List[bytes]):
+    """The relation, assuming and raises of one spec, read from the call that
+    declares it (``@refines(...)`` or ``attach(...)``)."""
+    if not relation_args:
         raise SpecError("spec-form", call.lineno, {"role": "relation"}, path=path)
-    relation = read_part(call.args[0], spec.relation, "relation", names + ("result",),
+    relation = read_part(relation_args[0], spec.relation, "relation", names + ("result",),
                          "a parameter of the function or `result`", path, lines)
     keywords = {k.arg: k.value for k in (call.keywords or ())}
     assuming = None
@@ -192,10 +338,47 @@ def read_obligation(fn: Callable, index: int, path: str, module: str,
             raises.append((cls, read_part(
                 value_node, condition, f"raises {cls.__name__}", names,
                 "a parameter of the function", path, lines)))
-    return Obligation(
-        fn=fn, qualname=fn.__qualname__, module=module, path=path, line=call.lineno,
-        fn_node=fn_node, params=params, kinds=kinds, relation=relation,
-        assuming=assuming, raises=tuple(raises), show=show)
+    return relation, assuming, tuple(raises)
+
+
+_KINDS = {inspect.Parameter.POSITIONAL_ONLY: "positional-only",
+          inspect.Parameter.POSITIONAL_OR_KEYWORD: "positional",
+          inspect.Parameter.KEYWORD_ONLY: "keyword"}
+
+
+def runtime_params(fn: Callable, self_class: Optional[type] = None,
+                   extra_hints: Optional[dict] = None):
+    """``(names, kinds, hints, untestable)`` of ``fn`` as it is called: from its
+    signature and type hints (``extra_hints`` win). ``self_class`` is the hint
+    of an unannotated first parameter (a method's ``self``). ``untestable`` is
+    why it cannot be called with generated arguments ("" when it can)."""
+    sig = inspect.signature(fn)  # follows __wrapped__, as a call does
+    written = inspect.unwrap(fn)
+    try:
+        declared = typing.get_type_hints(written)
+    except Exception:  # noqa: BLE001 -- unresolvable hints: read them one by one
+        declared = {}
+    names, kinds, hints, untestable = [], [], [], ""
+    for i, (name, prm) in enumerate(sig.parameters.items()):
+        if prm.kind not in _KINDS:
+            untestable = untestable or (
+                f"its parameter `{'*' if prm.kind == prm.VAR_POSITIONAL else '**'}{name}` "
+                "takes any number of arguments")
+            continue
+        hint = (extra_hints or {}).get(name, declared.get(name))
+        if hint is None and prm.annotation is not inspect.Parameter.empty:
+            hint = prm.annotation
+            if isinstance(hint, str):
+                try:
+                    hint = eval(hint, getattr(written, "__globals__", {}))  # noqa: S307
+                except Exception:  # noqa: BLE001 -- left unresolved
+                    pass
+        if hint is None and i == 0 and self_class is not None:
+            hint = self_class
+        names.append(name)
+        kinds.append(_KINDS[prm.kind])
+        hints.append(hint)
+    return tuple(names), tuple(kinds), tuple(hints), untestable
 
 
 def read_params(fn_node: nodes.FunctionDef, globals_: dict):
@@ -225,16 +408,20 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
             sort, optional, kind = param_type(arg.name, ann, globals_, fn_node)
             params.append(ir.Var(arg.name, sort, optional, kind))
             kinds.append(kind_name)
+    _one_list_kind(params, fn_node.lineno)
+    return tuple(params), tuple(kinds)
+
+
+def _one_list_kind(params, line: int) -> None:
     lists = sorted({p.kind for p in params if p.kind.startswith("list:")})
     if len(lists) > 1:
         # One list object can fit two such hints ([] is a list[int] and a
         # list[str]; [True] a list[bool] and a list[int]); the model keeps
         # kinds apart, so it would miss that aliasing.
         first = next(p for p in params if p.kind == lists[1])
-        raise Untranslatable("param-type", fn_node.lineno, {
+        raise Untranslatable("param-type", line, {
             "name": first.name, "hint_text": heap.describe(lists[1]) + " beside a "
             + heap.describe(lists[0]) + " parameter (one list may be both)"})
-    return tuple(params), tuple(kinds)
 
 
 def _method_of(fn_node: nodes.FunctionDef, globals_: dict):

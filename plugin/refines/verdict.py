@@ -6,7 +6,7 @@ Stages return these; ``report`` alone turns them into text and JSON.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Dict, List, Optional
+from typing import Any, Dict, List, Optional, Tuple
 
 PROVED = "proved"
 REFUTED = "refuted"
@@ -27,10 +27,58 @@ class Counterexample:
     violated: str  # the part of the spec that fails, as source text
     violated_at: str = ""  # "path:line" of that part
     detail: str = ""  # e.g. the exception message, or the raising statement
+    found_by: str = "solver"  # "solver" or "testing"
+    regression_test: str = ""  # a pytest function that fails on it ("" if none was made)
 
     def to_json(self) -> dict:
         return {"inputs": dict(self.inputs), "call": self.call, "outcome": dict(self.outcome),
-                "confirmed": self.confirmed, "violated": self.violated}
+                "confirmed": self.confirmed, "violated": self.violated,
+                "found_by": self.found_by, "regression_test": self.regression_test or None}
+
+
+@dataclass
+class Testing:
+    """What the tester ran: the examples judged, and where they came from."""
+
+    examples: int = 0  # inputs that met `assuming` and were judged against the spec
+    from_solver: int = 0  # of them: inputs the solver produced
+    boundary: int = 0  # of them: boundary values from the constants and the types
+    rejected: int = 0  # drawn inputs outside `assuming`, not judged
+    overran: int = 0  # runs stopped by the watchdog, not judged
+    skipped: int = 0  # inputs not run: as large as one whose run was stopped
+    seed: int = 0  # the random seed (the run is deterministic)
+
+    def to_json(self) -> dict:
+        return dict(self.__dict__)
+
+    def describe(self) -> str:
+        parts = [f"{self.from_solver} from the solver"] if self.from_solver else []
+        if self.boundary:
+            parts.append(f"{self.boundary} boundary values")
+        text = f"{self.examples} examples"
+        if parts:
+            text += " (" + ", ".join(parts) + ")"
+        extra = []
+        if self.rejected:
+            extra.append(f"{self.rejected} drawn inputs were outside assuming")
+        if self.overran:
+            extra.append(f"{self.overran} runs were stopped after the per-run time limit")
+        if self.skipped:
+            extra.append(f"{self.skipped} inputs at least as large as those were not run")
+        return text + ("; " + "; ".join(extra) if extra else "")
+
+
+@dataclass
+class Undecided:
+    """What the solver leaves open: why no proof (nor a confirmed refutation)
+    came out, and inputs it offers the tester. Internal: it holds Python
+    values, and becomes a Result once the tester has run."""
+
+    reason: str  # why it is not proved, e.g. "not translated: ... (fees.py:12)"
+    hint: Optional[str] = None
+    message_key: Optional[str] = None
+    seeds: List[Tuple[str, Dict[str, Any]]] = field(default_factory=list)  # (origin, inputs)
+    notes: List[str] = field(default_factory=list)
 
 
 @dataclass
@@ -48,8 +96,9 @@ class Result:
     exact_precondition: Optional[str] = None
     suggested_assuming: Optional[str] = None
     precondition_note: Optional[str] = None  # why no precondition is shown
-    message_key: Optional[str] = None  # the errors.MESSAGES row, for unknown/error
+    message_key: Optional[str] = None  # the errors.MESSAGES row, for unknown/error/tested
     notes: List[str] = field(default_factory=list)
+    testing: Optional[Testing] = None  # set when the tester ran
 
     def to_json(self, nodeid: str, path: str) -> dict:
         return {
@@ -63,6 +112,7 @@ class Result:
             "counterexample": self.counterexample.to_json() if self.counterexample else None,
             "exact_precondition": self.exact_precondition,
             "suggested_assuming": self.suggested_assuming,
+            "testing": self.testing.to_json() if self.testing else None,
             # Assumptions, aliasing and other notes; not internal tracebacks.
             "notes": [n for n in self.notes if not n.startswith("Traceback")],
         }
