@@ -363,3 +363,96 @@ def test_a_proof_resting_on_an_assumption_is_listed_with_it(pytester):
                                  "succeed*: badge.py::badge"])
     record = json.loads((pytester.path / "report.json").read_text())["results"][0]
     assert any(n.startswith("assumed: str() of an int") for n in record["notes"])
+
+
+def test_attached_specs_are_items_of_the_attaching_file(pytester):
+    pytester.makepyfile(stdlib_specs='''
+import calendar
+from refines import attach
+
+attach(calendar.isleap, lambda year, result: result == (year % 4 == 0),
+       hints={"year": int})
+attach(abs, lambda x, result: result >= 0, hints={"x": int})
+''')
+    ids = pytester.runpytest("--refines-path", "stdlib_specs.py", "--collect-only", "-q",
+                             "-p", "no:cacheprovider")
+    ids.stdout.fnmatch_lines(["stdlib_specs.py::calendar.isleap",
+                              "stdlib_specs.py::builtins.abs"])
+    data = _report(pytester, "--refines-path", "stdlib_specs.py")
+    by_id = {r["nodeid"]: r for r in data["results"]}
+    leap = by_id["stdlib_specs.py::calendar.isleap"]
+    assert leap["verdict"] == "refuted" and leap["function"] == "calendar.isleap"
+    assert leap["path"] == "stdlib_specs.py"
+    assert leap["line"] == line_of(pytester, "stdlib_specs.py", "attach(calendar.isleap")
+    assert by_id["stdlib_specs.py::builtins.abs"]["verdict"] == "tested"
+
+
+def test_testing_leaves_no_files_in_the_project(pytester):
+    pytester.makepyfile(loops='''
+from refines import refines
+
+@refines(lambda word, result: result <= len(word))
+def vowels(word: str) -> int:
+    n = 0
+    for ch in word:
+        if ch in "aeiou":
+            n += 1
+    return n
+''')
+    before = sorted(p.name for p in pytester.path.iterdir())
+    result = pytester.runpytest("--refines-path", "loops.py", "-p", "no:cacheprovider")
+    result.assert_outcomes(passed=1)
+    assert sorted(p.name for p in pytester.path.iterdir()) == before  # no .hypothesis/
+
+
+def test_the_example_count_is_an_option_and_an_ini_value(pytester):
+    pytester.makepyfile(specs='''
+from refines import refines
+
+@refines(lambda a, b, result: result == a + b)
+def add(a: int, b: int) -> int:
+    try:
+        return a + b
+    finally:
+        pass
+''')
+    few = _report(pytester, "--refines-path", "specs.py", "--refines-examples", "5")
+    t = few["results"][0]["testing"]
+    assert 0 < t["examples"] - t["from_solver"] - t["boundary"] <= 5
+    pytester.makeini("[pytest]\nrefines_examples = 7\n")
+    ini = _report(pytester, "--refines-path", "specs.py")
+    t = ini["results"][0]["testing"]
+    assert 0 < t["examples"] - t["from_solver"] - t["boundary"] <= 7
+    bad = pytester.runpytest("--refines-path", "specs.py", "--refines-examples", "0")
+    assert bad.ret == pytest.ExitCode.USAGE_ERROR
+    bad.stderr.fnmatch_lines(["*--refines-examples must be at least 1*"])
+
+
+def test_a_refutation_found_by_testing_shows_a_regression_test(pytester):
+    pytester.makepyfile(specs='''
+from refines import refines
+
+SEATS = 40
+
+@refines(lambda booked, result: result == (booked >= SEATS), assuming=lambda booked: booked >= 0)
+def full(booked: int) -> bool:
+    try:
+        return booked > SEATS
+    finally:
+        pass
+''')
+    result = pytester.runpytest("--refines-path", "specs.py", "-p", "no:cacheprovider")
+    result.assert_outcomes(failed=1)
+    result.stdout.fnmatch_lines([
+        "*counterexample (found by testing, confirmed by running the function):",
+        "*full(booked=40)",
+        "*returned False",
+        "*regression test (paste it into your tests; it fails until the bug is fixed):",
+        "*def test_full_counterexample():",
+        "*from specs import full, SEATS",
+        "*booked = 40",
+        "*result = full(booked=booked)",
+        "*assert result == (booked >= SEATS)",
+        "*tested, not proved, because: not translated: `try` statements*",
+        "refuted: specs.py::full -- found by testing",
+    ])

@@ -98,12 +98,17 @@ def plan(ob: Obligation) -> Plan:
     """The strategies and boundary values for ``ob``'s parameters."""
     limits = bounds(ob.assuming) if ob.assuming is not None else {}
     consts = constants(ob)
+    defaults = _defaults(ob)
     strategies, boundary = {}, {}
     for name, hint in zip(ob.names, ob.hints):
+        if hint is None and name in defaults:
+            # No hint, but a default: the tester keeps it (bisect_left's lo=0).
+            strategies[name], boundary[name] = st.just(defaults[name]), [defaults[name]]
+            continue
         if hint is None:
             raise CannotDraw(f"parameter `{name}` has no type hint to draw values from")
         b = limits.get(name, Bounds())
-        strategy = strategy_for(hint, b, name)
+        strategy = strategy_for(hint, b, name, consts)
         edges = [v for v in boundary_values(hint, consts) if _admits(b, v)][:MAX_BOUNDARY]
         boundary[name] = edges
         strategies[name] = st.one_of(st.sampled_from(edges), strategy) if edges else strategy
@@ -114,6 +119,14 @@ def plan(ob: Obligation) -> Plan:
             if earlier:
                 shares[name] = earlier[0]  # one object passed twice: aliasing
     return Plan(strategies, boundary, shares)
+
+
+def _defaults(ob: Obligation) -> Dict[str, Any]:
+    try:
+        params = inspect.signature(ob.fn).parameters
+    except (TypeError, ValueError):
+        return {}
+    return {n: p.default for n, p in params.items() if p.default is not inspect.Parameter.empty}
 
 
 def _admits(b: Bounds, value: Any) -> bool:
@@ -134,8 +147,10 @@ def _mutable(hint: Any) -> bool:
 # ---------------------------------------------------------------- strategies
 
 
-def strategy_for(hint: Any, b: Bounds, name: str) -> st.SearchStrategy:
-    """A strategy for values of ``hint`` within ``b``."""
+def strategy_for(hint: Any, b: Bounds, name: str,
+                 consts: Optional["Constants"] = None) -> st.SearchStrategy:
+    """A strategy for values of ``hint`` within ``b``; the items of a list and
+    the attributes of an object mix in the boundary values of ``consts``."""
     if hint is typing.Any or hint is object:
         raise CannotDraw(f"parameter `{name}` is hinted `{_text(hint)}`, which says nothing "
                          "about the values to draw")
@@ -143,7 +158,7 @@ def strategy_for(hint: Any, b: Bounds, name: str) -> st.SearchStrategy:
         return st.sampled_from(b.choices)
     origin, args = typing.get_origin(hint), typing.get_args(hint)
     if _is_optional(hint):
-        inner = strategy_for(next(a for a in args if a is not type(None)), b, name)
+        inner = strategy_for(next(a for a in args if a is not type(None)), b, name, consts)
         return inner if b.not_none else st.one_of(st.none(), inner)
     if hint is bool:
         return st.booleans()
@@ -161,15 +176,23 @@ def strategy_for(hint: Any, b: Bounds, name: str) -> st.SearchStrategy:
             exclude_min=b.lo is not None and b.lo_strict,
             exclude_max=b.hi is not None and b.hi_strict,
             allow_nan=not (bounded or b.not_nan or b.finite),
-            allow_infinity=not b.finite)
+            allow_infinity=not (b.finite or (b.lo is not None and b.hi is not None)))
     if hint is str:
         return st.text(min_size=b.min_len or 0, max_size=b.max_len)
     if origin in (list, typing.List) and len(args) == 1:
-        return st.lists(strategy_for(args[0], Bounds(), name), min_size=b.min_len or 0,
+        return st.lists(_part(args[0], f"{name}[...]", consts), min_size=b.min_len or 0,
                         max_size=b.max_len)
     if isinstance(hint, type) and hint.__module__ not in ("builtins", "typing") \
             and _attributes_only(hint):
-        return _objects(hint, name)
+        return _objects(hint, name, consts)
+    if dataclasses.is_dataclass(hint) and isinstance(hint, type):
+        try:  # its __init__, with the fields' boundary values mixed in
+            hints = _annotations(hint)
+            return st.builds(hint, **{f.name: _part(hints[f.name], f"{name}.{f.name}", consts)
+                                      for f in dataclasses.fields(hint)
+                                      if f.init and f.name in hints})
+        except CannotDraw:
+            pass
     try:
         strategy = st.from_type(hint)
         strategy.validate()
@@ -213,10 +236,17 @@ def _annotations(cls: type) -> dict:
     return {k: v for k, v in hints.items() if typing.get_origin(v) is not typing.ClassVar}
 
 
-def _objects(cls: type, name: str) -> st.SearchStrategy:
+def _part(hint: Any, name: str, consts: Optional["Constants"]) -> st.SearchStrategy:
+    """Values for an item or attribute: drawn, or a boundary value."""
+    strategy = strategy_for(hint, Bounds(), name, consts)
+    edges = boundary_values(hint, consts)[:MAX_BOUNDARY] if consts is not None else []
+    return st.one_of(st.sampled_from(edges), strategy) if edges else strategy
+
+
+def _objects(cls: type, name: str, consts: Optional["Constants"]) -> st.SearchStrategy:
     """Instances made as the prover considers them: the annotated attributes
     set directly, without ``__init__``."""
-    fields = {attr: strategy_for(hint, Bounds(), f"{name}.{attr}")
+    fields = {attr: _part(hint, f"{name}.{attr}", consts)
               for attr, hint in _annotations(cls).items()}
 
     def make(values: dict):

@@ -214,7 +214,6 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         result.reason, result.hint, result.message_key = ill
         return result
 
-    result.notes.extend("assumed: " + a for a in behaviour.assumptions)
     found = violations(behaviour, spec)
     status, model, why = solver.check(spec.assuming.holds,
                                       ir.or_(*(v.term for v in found)))
@@ -227,6 +226,8 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
                                      "to testing", None, seeds + allowed_inputs(ob, budget.seconds, spec),
                              notes=list(result.notes))
         result.verdict = PROVED
+        # What the proof takes for granted beyond the modelled semantics.
+        result.notes.extend("assumed: " + a for a in behaviour.assumptions)
         if untranslated:
             result.notes.append("untranslated: proved whatever these parts do: "
                                 + "; ".join(untranslated))

@@ -83,11 +83,28 @@ def _write(ob: Obligation, pre: Dict[str, Any]):
         body.append(f"result = {call}")
         condition = rel.text.strip() if not olds and "\n" not in rel.text else ast.unparse(tree)
         body.append(f"assert {condition}")
+    imports = _grouped(imports)
     name = "test_" + _identifier(ob.call_name) + "_counterexample"
     where = ob.where(ob.path, ob.line)
     lines = [f"def {name}():", f'    """The counterexample pytest-refines found to the spec at {where}."""']
     lines += ["    " + i for i in imports] + ["    " + b for b in body]
     return "\n".join(lines) + "\n", name
+
+
+def _grouped(imports: List[str]) -> List[str]:
+    """``from m import a`` and ``from m import b`` as ``from m import a, b``."""
+    out: List[str] = []
+    names: Dict[str, List[str]] = {}
+    for line in imports:
+        if line.startswith("from ") and " import " in line:
+            module, name = line[5:].split(" import ", 1)
+            if module not in names:
+                names[module] = []
+                out.append(module)
+            names[module].append(name)
+        else:
+            out.append(line)
+    return [f"from {m} import {', '.join(names[m])}" if m in names else m for m in out]
 
 
 def _add(lines: List[str], line: str) -> None:
