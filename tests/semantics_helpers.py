@@ -159,6 +159,20 @@ class Evaluator:
             return strmath.const(value, self.ctx)  # code point for code point
         return z3.IntVal(int(value), self.ctx)
 
+    def param_substitution(self, args: Sequence[Any]):
+        """The parameters (and, with lists or objects, the pre-state heap)
+        replaced by constants; opaque values and defined constants stay free."""
+        if self.heapy:
+            return self._heap_substitution(args)
+        return [(var, self._constant(a, p.sort))
+                for var, a, p in zip(self.vars, args, self.behaviour.params)]
+
+    def outcome_arrays(self, index: int) -> dict:
+        """The heap after outcome ``index``, lowered: the fields it wrote, and
+        the pre-state fields the evaluation knows for the rest."""
+        written = {k: self.lower(a) for k, a in (self.behaviour.outcomes[index].heap or {}).items()}
+        return dict(getattr(self, "fields", {}), **written)
+
     def substitution(self, args: Sequence[Any]):
         if self.heapy:
             subst = self._heap_substitution(args)
@@ -995,3 +1009,149 @@ def assert_none(tally: Tally, kinds=ALL_PROBLEMS) -> None:
     assert not found, (f"{len(found)} of {tally.programs} programs {what}\n"
                        + "\n\n".join(found[:4]))
     assert tally.unmodelled_cases == 0, f"{tally.unmodelled_cases} cases not modelled"
+
+
+# ---------------------------------------------------------------- soundness of abstractions
+
+# Resource units for one "does the behaviour admit this run?" query.
+ADMIT_RLIMIT = 20_000_000
+
+
+def admits(behaviour: ir.Behaviour, fn: Callable, args: Sequence[Any],
+           evaluator: Optional[Evaluator] = None) -> Optional[str]:
+    """None if ``behaviour`` admits what CPython does on ``fn(*args)``, else
+    what went wrong.
+
+    A behaviour with untranslated parts says what may happen, not what will:
+    its opaque values (``ir.opaque``) are free. It admits a run when some
+    choice of them makes an outcome hold that matches the run -- the same
+    exception class, or an equal returned value (floats bit for bit, any NaN
+    for a NaN) with every list and object argument left as the run left it,
+    object for object -- or makes an unmodelled outcome hold, which claims
+    nothing. The parameters are fixed to the inputs and the solver decides.
+    A run that is not admitted is a wrong abstraction: a proof could then
+    hold for the behaviour and fail for the function."""
+    ev = evaluator or Evaluator(behaviour)
+    copied = copy.deepcopy(tuple(args))
+    real = run_python(fn, distinct_objects(copied))
+    subst = ev.param_substitution(args)
+    numbers = {}  # id of an argument's object (after the run) -> its reference number
+    for p, original, after in zip(behaviour.params, _numbered(behaviour.params, args), copied):
+        if p.sort == ir.REF:
+            numbers[id(after)] = original
+    ctx = ev.ctx
+    alternatives = []
+    for i, o in enumerate(behaviour.outcomes):
+        guard = ev.guards[i]
+        if o.unmodelled:
+            alternatives.append(guard)
+        elif real[0] == "raised":
+            if not o.returns and o.exception is real[1]:
+                alternatives.append(guard)
+        elif o.returns:
+            arrays = ev.outcome_arrays(i)
+            made: dict = {}
+            parts = [guard, _matches(ev, ev.values[i], real[1], arrays, numbers, made)]
+            for p, after in zip(behaviour.params, copied):
+                if p.sort == ir.REF:
+                    ref = ev.lower(ir.initial(p).ref)
+                    parts.append(_matches(ev, ("ref", (p.kind, ref)), after, arrays,
+                                          numbers, made))
+            alternatives.append(z3.And(parts))
+    solver = z3.Solver(ctx=ctx)
+    solver.set("rlimit", ADMIT_RLIMIT)
+    claim = z3.Or(alternatives) if alternatives else z3.BoolVal(False, ctx)
+    solver.add(z3.substitute(claim, *subst) if subst else claim)
+    for d in ev.lower.definitions:
+        solver.add(z3.substitute(d, *subst) if subst else d)
+    status = solver.check()
+    if status == z3.sat:
+        return None
+    what = "undecided by the solver" if status == z3.unknown else "not admitted"
+    return f"{fn.__name__}{tuple(args)!r}: CPython {real}, {what} by\n{behaviour!r}"
+
+
+def _numbered(params, args) -> List[Optional[int]]:
+    """The reference number of each list or object argument, as
+    ``Evaluator._heap_substitution`` numbers them (one per object)."""
+    numbers: dict = {}
+    out = []
+    for p, a in zip(params, args):
+        if p.sort == ir.REF:
+            numbers.setdefault(id(a), len(numbers))
+            out.append(numbers[id(a)])
+        else:
+            out.append(None)
+    return out
+
+
+def _matches(ev: Evaluator, lowered, value: Any, arrays: dict, numbers: dict, made: dict):
+    """A z3 condition: the lowered outcome value is ``value``."""
+    ctx = ev.ctx
+    false = z3.BoolVal(False, ctx)
+    kind, payload = lowered
+    if kind == "none":
+        return z3.BoolVal(value is None, ctx)
+    if kind == "opt":
+        none, inner = payload
+        if value is None:
+            return none
+        return z3.And(z3.Not(none), _matches(ev, inner, value, arrays, numbers, made))
+    if kind == "tuple":
+        if type(value) is not tuple or len(value) != len(payload):
+            return false
+        return z3.And([z3.BoolVal(True, ctx)] + [
+            _matches(ev, item, v, arrays, numbers, made) for item, v in zip(payload, value)])
+    if kind == "ref":
+        ref_kind, ref = payload
+        if id(value) in made:  # one object met twice: one reference
+            return ref == made[id(value)]
+        made[id(value)] = ref
+        if id(value) in numbers:
+            same = ref == z3.IntVal(numbers[id(value)], ctx)
+        else:  # a new object is none of the arguments
+            same = z3.And([z3.BoolVal(True, ctx)] + [ref != z3.IntVal(n, ctx)
+                                                      for n in set(numbers.values())])
+        if ref_kind.startswith("list:"):
+            if type(value) is not list:
+                return false
+            try:
+                contents = ev._seq_constant(value, heap.elem_sort(ref_kind))
+            except TypeError:
+                return false
+            return z3.And(same, z3.Select(_array(ev, arrays, ref_kind), ref) == contents)
+        info = heap.KINDS[ref_kind]
+        if type(value) is not info.cls:
+            return false
+        parts = [same]
+        for attr, sort in info.fields.items():
+            key = heap.field_key(ref_kind, attr)
+            parts.append(_matches(ev, (sort, z3.Select(_array(ev, arrays, key), ref)),
+                                  getattr(value, attr), arrays, numbers, made))
+        return z3.And(parts)
+    term = payload
+    if kind == ir.FLOAT:
+        return term == fpmath.const(value, ctx) if type(value) is float else false
+    if kind == ir.STR:
+        return term == strmath.const(value, ctx) if type(value) is str else false
+    if kind == ir.BOOL:
+        return term == z3.BoolVal(value, ctx) if type(value) is bool else false
+    if type(value) not in (int, bool):
+        return false
+    return term == z3.IntVal(int(value), ctx)
+
+
+def _array(ev: Evaluator, arrays: dict, key: str):
+    """A field after an outcome: written by it, else as before the call (a
+    field no argument has is a free array: any objects of that kind)."""
+    return arrays[key] if key in arrays else ev.lower(heap.initial_field(key))
+
+
+def check_sound(source: str, inputs: Sequence[Tuple], name: str = "f") -> Translated:
+    """Translate ``source`` and assert that its behaviour admits what CPython
+    does on every input tuple."""
+    t = translated(source, name)
+    bad = [m for m in (admits(t.behaviour, t.fn, args, t.evaluator) for args in inputs)
+           if m is not None]
+    assert not bad, "\n\n".join(bad[:3]) + f"\n{len(bad)} of {len(inputs)} runs not admitted"
+    return t

@@ -32,10 +32,11 @@ MESSAGES: Dict[str, Message] = {
     "statement": Message(
         "`{construct}` statements are not translated yet",
         "supported statements: assignment, augmented assignment, if/elif/else, "
-        "return, raise, assert, pass",
+        "for and while loops (with break, continue and else), return, raise, "
+        "assert, pass",
         "@refines(lambda n, result: result >= 0)\n"
-        "def f(n: int) -> int:\n    total = 0\n    for i in range(n):\n"
-        "        total += i\n    return total\n",
+        "def f(n: int) -> int:\n    try:\n        return 10 // n\n"
+        "    except ZeroDivisionError:\n        return 0\n",
         "unsupported",
     ),
     "expression": Message(
@@ -53,21 +54,20 @@ MESSAGES: Dict[str, Message] = {
     ),
     "call": Message(
         "calls to `{callee}` are not translated yet",
-        "the builtins abs, min, max, int, bool, float, len, str, the math functions "
-        "isnan, isinf, isfinite, fabs, sqrt, floor, ceil, copysign and the str "
-        "methods listed in the docs are modelled; calls to other functions arrive "
-        "with a later release",
-        "def helper(x):\n    return x\n\n"
-        "@refines(lambda x, result: result == x)\n"
-        "def f(x: int) -> int:\n    return helper(x)\n",
+        "the builtins abs, min, max, int, bool, float, len, str, list, isinstance, "
+        "the math functions isnan, isinf, isfinite, fabs, sqrt, floor, ceil, "
+        "copysign and the str and list methods listed in the docs are modelled; "
+        "calls to your own functions, classes and methods stand for a value of their "
+        "return annotation; other callables only on a line of their own (result unused)",
+        "@refines(lambda x, result: result >= 0)\n"
+        "def f(x: float) -> int:\n    return round(x)\n",
         "unsupported",
     ),
     "method": Message(
         "the method `{method}` is not translated yet",
-        "the methods modelled are {allowed} (startswith/endswith take one argument, "
-        "replace takes no count)",
+        "the methods modelled are {allowed} (startswith/endswith take one argument)",
         "@refines(lambda code, result: len(result) == len(code))\n"
-        "def f(code: str) -> str:\n    return code.upper()\n",
+        "def f(code: str) -> bytes:\n    return code.encode()\n",
         "unsupported",
     ),
     "attribute": Message(
@@ -83,8 +83,20 @@ MESSAGES: Dict[str, Message] = {
     "operator": Message(
         "the operator `{op}` is not translated for {types}",
         "{hint}",
+        "@refines(lambda x, y, result: result >= 0)\n"
+        "def f(x: float, y: float) -> float:\n    return x ** y\n",
+        "unsupported",
+    ),
+    "opaque-type": Message(
+        "the result of `{construct}` is used, but {why}, so the translator has no "
+        "value to stand for it",
+        "annotate the callee's return type with int, bool, float, str, None, "
+        "Optional[...] of one of them, a tuple of these, list[int] (bool, float, "
+        "str), or a class with annotated attributes and no subclasses; or use the "
+        "call on a line of its own",
+        "def grade(points):\n    return points // 10\n\n"
         "@refines(lambda x, result: result >= 0)\n"
-        "def f(x: int) -> int:\n    return x & 7\n",
+        "def f(x: int) -> int:\n    return grade(x)\n",
         "unsupported",
     ),
     "power": Message(

@@ -18,6 +18,7 @@ change the meaning of a term.
 
 from __future__ import annotations
 
+import itertools
 import weakref
 from dataclasses import dataclass
 from typing import Optional, Tuple, Union
@@ -32,6 +33,9 @@ STR = "str"  # a sequence of Unicode code points
 REF = "ref"
 REF_SUFFIX = "!ref"  # the reference of a parameter that is a list or an object
 HEAP_PREFIX = "heap!"  # the pre-state array of one heap field
+# A fresh unconstrained value: what an untranslated part of a body gives (a
+# call to a function that is not modelled, a loop's variables). See ``opaque``.
+OPAQUE_PREFIX = "opaque!"
 
 
 def seq_sort(elem: str) -> str:
@@ -400,7 +404,7 @@ def cmp(op: str, left: Term, right: Term) -> Term:
             same = True
         elif _fresh(left) and _fresh(right):
             same = left.value == right.value
-        elif (_fresh(left) and isinstance(right, Var)) or (_fresh(right) and isinstance(left, Var)):
+        elif (_fresh(left) and _param_ref(right)) or (_fresh(right) and _param_ref(left)):
             same = False  # a new object is none of the parameters
         else:
             return Cmp(op, left, right)
@@ -433,6 +437,27 @@ def cmp(op: str, left: Term, right: Term) -> Term:
 def _fresh(t: Term) -> bool:
     """A reference to an object made during the call: a negative constant."""
     return isinstance(t, Const) and t.sort == REF
+
+
+def _param_ref(t: Term) -> bool:
+    """The reference of a parameter. An opaque reference (what an untranslated
+    call returned) may be any object, one made during the call included."""
+    return isinstance(t, Var) and not t.name.startswith(OPAQUE_PREFIX)
+
+
+_OPAQUE = itertools.count()
+
+
+def opaque(sort: str) -> Var:
+    """A fresh value about which nothing is known: a new name each call (one
+    counter for the process), so two untranslated parts never share one.
+    Callers that know something about it (``count`` is not negative) narrow
+    the path condition with that fact where they make it."""
+    return Var(f"{OPAQUE_PREFIX}{next(_OPAQUE)}", sort)
+
+
+def is_opaque(t: Term) -> bool:
+    return isinstance(t, Var) and t.name.startswith(OPAQUE_PREFIX)
 
 
 def fresh_ref(n: int) -> Const:
@@ -626,6 +651,11 @@ class Behaviour:
     # What the translation takes for granted beyond the modelled semantics
     # (e.g. str(n) under the interpreter's digit limit); the report lists it.
     assumptions: Tuple[str, ...] = ()
+    # The parts of the body that were not translated but abstracted by opaque
+    # values (a call to a function that is not modelled, a loop), each with its
+    # line, e.g. "the call `audit(x)` (line 7)". A proof holds whatever they
+    # do; a counterexample may come from a value they never produce.
+    untranslated: Tuple[str, ...] = ()
 
     def __repr__(self) -> str:
         return "\n".join(repr(o) for o in self.outcomes)

@@ -124,9 +124,10 @@ class Lowering:
         key = f"{name}:{sort}"
         if key not in self.vars:
             self.vars[key] = z3.Const(name, z3_sort(sort, self.ctx))
-            if sort == ir.REF:
+            if sort == ir.REF and not name.startswith(ir.OPAQUE_PREFIX):
                 # Parameters' objects are numbered from 0; the objects a call
-                # makes are the negative numbers (ir.fresh_ref).
+                # makes are the negative numbers (ir.fresh_ref). An opaque
+                # reference may be either: no definition.
                 self.definitions.append(self.vars[key] >= z3.IntVal(0, self.ctx))
         return self.vars[key]
 

@@ -41,16 +41,20 @@ from refines.calls import _CALLS, STR_METHODS, Calls
 from refines.compare import Comparisons, optional_parts
 from refines.errors import SpecError, Untranslatable
 from refines.heap import Heap
+from refines.loops import Loops
+from refines.methods import LIST_METHODS, Methods
+from refines.methods import STR_METHODS as TABLE_STR_METHODS
+from refines.opaque import Opaque
 from refines.strings import Strings, str_const
+from refines.values import Conflict, MaybeUnbound, merge, shape  # noqa: F401 -- re-exported
 
 # Python statement keywords for the node kinds we do not translate yet.
 _STATEMENT_NAMES = {
-    "For": "for", "AsyncFor": "async for", "While": "while", "Try": "try",
+    "AsyncFor": "async for", "Try": "try",
     "TryStar": "try", "With": "with", "AsyncWith": "async with",
     "Import": "import", "ImportFrom": "from ... import", "Delete": "del",
     "Global": "global", "Nonlocal": "nonlocal", "FunctionDef": "def",
     "AsyncFunctionDef": "async def", "ClassDef": "class", "Match": "match",
-    "Break": "break", "Continue": "continue",
 }
 _EXPRESSION_NAMES = {
     "ListComp": "list comprehension", "SetComp": "set comprehension",
@@ -64,82 +68,6 @@ _EXPRESSION_NAMES = {
 
 _CMP = {"<", "<=", ">", ">=", "==", "!="}
 _MAX_POWER = 64
-
-
-@dataclass
-class MaybeUnbound:
-    """A local assigned on some paths only: reading it where ``bound`` is false
-    raises UnboundLocalError, as Python does."""
-
-    value: ir.Value
-    bound: ir.Term
-
-
-@dataclass
-class Conflict:
-    """A local whose shape differs between paths; an error only if read."""
-
-    shapes: str
-
-
-def shape(v: ir.Value) -> str:
-    if isinstance(v, ir.Ref):
-        return heap.describe(v.kind)
-    if isinstance(v, ir.Opt):
-        return f"Optional[{shape(v.value)}]"
-    if isinstance(v, ir.Tup):
-        return "tuple(" + ", ".join(shape(i) for i in v.items) + ")"
-    if v is ir.NONE:
-        return "None"
-    return {ir.FLOAT: "float", ir.STR: "str"}.get(v.sort, "int/bool")
-
-
-_kind = heap._kind  # terms of one kind merge into one if-then-else
-
-
-def merge(cond: ir.Term, a, b):
-    """The value that is ``a`` where ``cond`` holds and ``b`` elsewhere."""
-    if a is b or ir.is_true(cond):
-        return a
-    if ir.is_false(cond):
-        return b
-    if isinstance(a, Conflict) or isinstance(b, Conflict):
-        return a if isinstance(a, Conflict) else b
-    if isinstance(a, MaybeUnbound) or isinstance(b, MaybeUnbound):
-        av, ab = (a.value, a.bound) if isinstance(a, MaybeUnbound) else (a, ir.TRUE)
-        bv, bb = (b.value, b.bound) if isinstance(b, MaybeUnbound) else (b, ir.TRUE)
-        bound = ir.ite(cond, ab, bb)
-        # Where a side is never bound its value is never read: take the other.
-        if ir.is_false(ab):
-            return MaybeUnbound(bv, bound)
-        if ir.is_false(bb):
-            return MaybeUnbound(av, bound)
-        return MaybeUnbound(merge(cond, av, bv), bound)
-    if a is ir.NONE and b is ir.NONE:
-        return ir.NONE
-    if isinstance(a, ir.Ref) and isinstance(b, ir.Ref) and a.kind == b.kind:
-        return ir.Ref(ir.ite(cond, a.ref, b.ref), a.kind)
-    if isinstance(a, (ir.Term, ir.Opt, ir.NoneValue)) and isinstance(b, (ir.Term, ir.Opt, ir.NoneValue)):
-        # None on some paths and a number or str on the others: an Opt.
-        if isinstance(a, ir.Term) and isinstance(b, ir.Term):
-            if _kind(a) != _kind(b):
-                return Conflict(f"{shape(a)} and {shape(b)}")  # e.g. int or float
-            return ir.ite(cond, a, b)
-        an, av = optional_parts(a)
-        bn, bv = optional_parts(b)
-        if av is None or bv is None:
-            value = av if bv is None else bv
-        elif _kind(av) != _kind(bv):
-            return Conflict(f"{shape(a)} and {shape(b)}")
-        else:
-            value = ir.ite(cond, av, bv)
-        return ir.Opt(ir.ite(cond, an, bn), value)
-    if isinstance(a, ir.Tup) and isinstance(b, ir.Tup) and len(a.items) == len(b.items):
-        items = tuple(merge(cond, x, y) for x, y in zip(a.items, b.items))
-        if any(isinstance(i, Conflict) for i in items):
-            return Conflict(f"{shape(a)} and {shape(b)}")
-        return ir.Tup(items)
-    return Conflict(f"{shape(a)} and {shape(b)}")
 
 
 truthy = ir.truth
@@ -223,7 +151,7 @@ class Scope:
                 and self.globals.get(name, getattr(builtins, name, None)) is fn)
 
 
-class Translator(Calls, Heap, Comparisons, Strings):
+class Translator(Calls, Heap, Comparisons, Strings, Methods, Opaque, Loops):
     """Symbolic execution of one body or spec expression."""
 
     def __init__(self, scope: Scope, env: Dict[str, ir.Value],
@@ -238,6 +166,13 @@ class Translator(Calls, Heap, Comparisons, Strings):
         self.role = role
         self.live: ir.Term = ir.TRUE
         self.outcomes: List[ir.Outcome] = []
+        # Parts abstracted by opaque values (opaque.py, loops.py), for the report.
+        self.untranslated: List[str] = []
+        # How often the path was cut other than by an outcome: a break or a
+        # continue, or a fact about a fresh value (see ``branches``).
+        self.cuts = 0
+        self.loops: list = []  # the loops being translated, innermost last
+        self.param_kinds: set = set()  # kinds of list and object parameters
 
     # ------------------------------------------------------------ outcomes
 
@@ -335,9 +270,9 @@ class Translator(Calls, Heap, Comparisons, Strings):
                 raise Untranslatable("expression", target.lineno,
                                      {"construct": "starred assignment"})
             if not isinstance(value, ir.Tup):
-                self.raise_when(ir.TRUE, TypeError, target.lineno,
-                                "cannot unpack a non-iterable value")
-                return
+                value = self.unpacked(value, len(target.elts), target)
+                if value is None:
+                    return
             if len(value.items) != len(target.elts):
                 self.raise_when(ir.TRUE, ValueError, target.lineno,
                                 f"unpacking {len(value.items)} values into "
@@ -357,6 +292,39 @@ class Translator(Calls, Heap, Comparisons, Strings):
                 return
         raise Untranslatable("expression", target.lineno,
                              {"construct": "assignment to " + target.as_string()})
+
+    def unpacked(self, value: ir.Value, n: int, target) -> Optional[ir.Tup]:
+        """The items of a str or a list unpacked into ``n`` names: ValueError
+        unless it has exactly ``n`` (Language Reference, 7.2 Assignment
+        statements); other values are not iterable (TypeError)."""
+        if isinstance(value, ir.Opt):
+            self.raise_when(value.none, TypeError, target.lineno,
+                            "cannot unpack non-iterable NoneType object")
+            value = value.value
+        if isinstance(value, ir.Ref) and not value.kind.startswith("list:"):
+            self.refuse("expression", target.lineno, {
+                "construct": "unpacking a " + heap.describe(value.kind) + " object"})
+            return None
+        if isinstance(value, ir.Ref) or (isinstance(value, ir.Term) and value.sort == ir.STR):
+            items = self.contents(value) if isinstance(value, ir.Ref) else value
+            size = ir.op("len", items, sort=ir.INT) if isinstance(value, ir.Ref) \
+                else ir.str_len(value)
+            self.raise_when(ir.cmp("!=", size, ir.const(n)), ValueError, target.lineno,
+                            f"unpacking a sequence into {n} names")
+            if ir.is_false(self.live):
+                return None
+            if isinstance(value, ir.Ref):
+                sort = heap.elem_sort(value.kind)
+                return ir.Tup(tuple(ir.op("nth", items, ir.const(i), sort=sort)
+                                    for i in range(n)))
+            return ir.Tup(tuple(self.str_subscript_at(value, i) for i in range(n)))
+        self.raise_when(ir.TRUE, TypeError, target.lineno, "cannot unpack a non-iterable value")
+        return None
+
+    def str_subscript_at(self, s: ir.Term, i: int) -> ir.Term:
+        if isinstance(s, ir.Const):
+            return ir.const(s.value[i])
+        return ir.op("getitem", s, ir.const(i), sort=ir.STR)
 
     def stmt_Return(self, node: nodes.Return) -> None:
         value = ir.NONE if node.value is None else self.expr(node.value)
@@ -395,16 +363,20 @@ class Translator(Calls, Heap, Comparisons, Strings):
 
         self.env, self.live = dict(start_env), ir.conj(start_live, cond)
         self.heap = dict(start_heap)
+        start_cuts = self.cuts
         then_value = then()
         then_env, then_live, then_heap = self.env, self.live, self.heap
-        then_ended = len(self.outcomes) != start_count
+        # A branch narrowed its path if it added an outcome, or jumped out of
+        # a loop, or learned a fact about a fresh value: its end condition is
+        # then not the branch condition any more.
+        then_ended = len(self.outcomes) != start_count or self.cuts != start_cuts
 
-        mid_count = len(self.outcomes)
+        mid_count, mid_cuts = len(self.outcomes), self.cuts
         self.env, self.live = dict(start_env), ir.conj(start_live, ir.not_(cond))
         self.heap = dict(start_heap)
         else_value = orelse()
         else_env, else_live, else_heap = self.env, self.live, self.heap
-        else_ended = len(self.outcomes) != mid_count
+        else_ended = len(self.outcomes) != mid_count or self.cuts != mid_cuts
 
         if not then_ended and not else_ended:
             self.live = start_live  # neither branch can end early
@@ -560,6 +532,9 @@ class Translator(Calls, Heap, Comparisons, Strings):
         right = self.scalar(right, node, op)
         if ir.STR in (left.sort, right.sort):
             return self.str_binop(op, left, right, node)
+        if op in ("&", "|", "^", "<<", ">>") and not (
+                op in ("&", "|", "^") and left.sort == ir.BOOL and right.sort == ir.BOOL):
+            return self.int_bitwise(op, left, right, node)
         if ir.FLOAT in (left.sort, right.sort):
             return self.float_binop(op, left, right, node)
         if op == "/":
@@ -581,7 +556,7 @@ class Translator(Calls, Heap, Comparisons, Strings):
             return ir.cmp("!=", left, right)
         return self.refuse("operator", node.lineno, {
             "op": op, "types": "int operands",
-            "hint": "bitwise and shift operators on ints are not modelled yet"})
+            "hint": "`@` is not defined for ints"})
 
     def to_float(self, v: ir.Term, line: int) -> ir.Term:
         """An int operand of a float operation: Python converts it with one
@@ -845,32 +820,21 @@ class Translator(Calls, Heap, Comparisons, Strings):
             if isinstance(value, ir.Ref):
                 return self.snapshot(value, inner.heap)  # what it held before the call
             return value
-        if node.keywords or any(isinstance(a, nodes.Starred) for a in node.args):
+        keywords = node.keywords or []
+        if any(isinstance(a, nodes.Starred) for a in node.args) or \
+                any(k.arg is None for k in keywords):
             return self.refuse("call", node.lineno, {"callee": func.as_string()})
         if isinstance(func, nodes.Attribute) and self.is_value(func.expr):
-            subject = self.expr(func.expr)
-            if isinstance(subject, ir.Opt):
-                self.raise_when(subject.none, AttributeError, node.lineno,
-                                f"'NoneType' object has no attribute '{func.attrname}'")
-                subject = subject.value
-            args = [self.expr(a) for a in node.args]
-            result = None
-            if isinstance(subject, ir.Ref) and subject.kind.startswith("list:"):
-                result = self.list_method(subject, func.attrname, args, node)
-                if result is None:
-                    return self.refuse("method", node.lineno, {
-                        "method": "list." + func.attrname,
-                        "allowed": "list.append, list.extend, list.pop"})
-            elif isinstance(subject, ir.Term) and subject.sort == ir.STR:
-                result = self.str_method(func.attrname, subject, args, node)
-                if result is None:
-                    return self.refuse("method", node.lineno, {
-                        "method": "str." + func.attrname,
-                        "allowed": ", ".join("str." + m for m in STR_METHODS)})
-            if result is not None:
-                return result
-            return self.refuse("call", node.lineno, {"callee": func.as_string()})
+            return self.method_call(node)
         callee = self.scope.resolve(func)
+        if keywords:
+            # Only functions that are not modelled take keywords here.
+            if self.role == "body" and (id(callee) not in _CALLS and callee is not isinstance):
+                args = [self.expr(a) for a in node.args] + [self.expr(k.value) for k in keywords]
+                result = self.call_of_object(node, callee, args)
+                if result is not None:
+                    return result
+            return self.refuse("call", node.lineno, {"callee": func.as_string()})
         if callee is isinstance and len(node.args) == 2:
             return self.call_isinstance(self.expr(node.args[0]), node.args[1], node)
         handler = _CALLS.get(id(callee))
@@ -887,6 +851,52 @@ class Translator(Calls, Heap, Comparisons, Strings):
             result = getattr(self, method)(fn_name, args, node)
             if result is not None:
                 return result
+            return self.refuse("call", node.lineno, {"callee": func.as_string()})
+        if self.role == "body" and callee is not None:
+            result = self.call_of_object(node, callee, [self.expr(a) for a in node.args])
+            if result is not None:
+                return result
+        return self.refuse("call", node.lineno, {"callee": func.as_string()})
+
+    def method_call(self, node: nodes.Call) -> ir.Value:
+        """``subject.name(...)`` for a value: the str and list methods
+        modelled (calls, heap), then the table's (methods), then a method of
+        an object of a modelled class, which is not translated (opaque)."""
+        func = node.func
+        name = func.attrname
+        subject = self.expr(func.expr)
+        if isinstance(subject, ir.Opt):
+            self.raise_when(subject.none, AttributeError, node.lineno,
+                            f"'NoneType' object has no attribute '{name}'")
+            subject = subject.value
+        args = [self.expr(a) for a in node.args]
+        kwargs = {k.arg: self.expr(k.value) for k in node.keywords or []}
+        if ir.is_false(self.live):
+            return ir.const(0)  # an argument always raises: the call never happens
+        result = None
+        if isinstance(subject, ir.Ref) and subject.kind.startswith("list:"):
+            if not kwargs:
+                result = self.list_method(subject, name, args, node)
+            if result is None:
+                result = self.table_method(subject, name, args, kwargs, node)
+            if result is None:
+                return self.refuse("method", node.lineno, {
+                    "method": "list." + name, "allowed": ", ".join(
+                        "list." + m for m in ("append", "extend", "pop") + tuple(LIST_METHODS))})
+        elif isinstance(subject, ir.Term) and subject.sort == ir.STR:
+            if not kwargs:
+                result = self.str_method(name, subject, args, node)
+            if result is None:
+                result = self.table_method(subject, name, args, kwargs, node)
+            if result is None:
+                return self.refuse("method", node.lineno, {
+                    "method": "str." + name, "allowed": ", ".join(
+                        "str." + m for m in STR_METHODS + tuple(TABLE_STR_METHODS))})
+        elif isinstance(subject, ir.Ref) and self.role == "body":
+            result = self.call_method_of_object(node, subject, name,
+                                                args + list(kwargs.values()))
+        if result is not None:
+            return result
         return self.refuse("call", node.lineno, {"callee": func.as_string()})
 
     # ------------------------------------------------------------ helpers
@@ -966,10 +976,12 @@ def translate_body(fn_node: nodes.FunctionDef, params: Sequence[ir.Var],
     """The behaviour of a function body over its parameters."""
     env = {p.name: ir.initial(p) for p in params}
     t = Translator(scope, env, role="body")
+    t.param_kinds = {p.kind for p in params if p.sort == ir.REF}
     t.block(fn_node.body)
     last = fn_node.body[-1] if fn_node.body else fn_node
     t.finish(ir.NONE, getattr(last, "end_lineno", None) or fn_node.lineno)
-    return ir.Behaviour(tuple(params), tuple(t.outcomes), tuple(t.assumptions))
+    return ir.Behaviour(tuple(params), tuple(t.outcomes), tuple(t.assumptions),
+                        tuple(t.untranslated))
 
 
 @dataclass
