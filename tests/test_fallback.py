@@ -273,5 +273,5 @@ def test_old_in_the_relation_becomes_a_copy_taken_before_the_call(tmp_path):
         ''')
     assert r.verdict == REFUTED
     text = r.counterexample.regression_test
-    assert "old_0 = copy.deepcopy(log)" in text and "assert log == old_0 + [entry]" in text
+    assert "old_log = copy.deepcopy(log)" in text and "assert log == old_log + [entry]" in text
     assert isinstance(_paste_and_run(text), AssertionError)

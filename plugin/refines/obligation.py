@@ -50,7 +50,7 @@ def translate_spec_for(ob: Obligation) -> Spec:
             return translate_spec(part.body, {n: env[n] for n in part.params}, scope,
                                   part.role, old_env=old, heap_state=heap_state)
         except (SpecError, Untranslatable) as exc:
-            if isinstance(exc, SpecError) and exc.path is None:
+            if exc.path is None:
                 exc.path = part.path
             raise
 

@@ -167,7 +167,7 @@ def prove(ob: Obligation, timeout: float) -> Union[Result, Undecided]:
         outcome = _check(ob, budget, result)
     except Untranslatable as exc:
         outcome = Undecided(
-            reason=f"not translated: {exc.text} ({ob.where(ob.path, exc.line)})",
+            reason=f"not translated: {exc.text} ({ob.where(exc.path or ob.path, exc.line)})",
             hint=exc.hint, message_key=exc.key,
             seeds=allowed_inputs(ob, timeout) if ob.params is not None else [])
     except Exception as exc:  # noqa: BLE001 -- never crash the session
@@ -203,7 +203,11 @@ def _base(ob: Obligation) -> Result:
 
 def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     scope = Scope(ob.fn.__globals__, list(ob.fn_node.locals))
-    behaviour = translate_body(ob.fn_node, ob.params, scope)
+    try:
+        behaviour = translate_body(ob.fn_node, ob.params, scope)
+    except Untranslatable as exc:
+        exc.path = exc.path or ob.fn_node.root().file  # an attached target's own file
+        raise
     spec = translate_spec_for(ob)
     solver = Solver(budget)
 
@@ -442,6 +446,9 @@ def _differs(params, inputs: dict) -> Optional[ir.Term]:
     parts = []
     for p in params:
         value = inputs.get(p.name)
+        if p.sort == ir.REF and p.kind.startswith("list:") and isinstance(value, list):
+            parts.append(_list_differs(p, value))
+            continue
         if p.sort == ir.REF or p.optional or value is None:
             continue
         if p.sort == ir.FLOAT and value != value:
@@ -450,4 +457,20 @@ def _differs(params, inputs: dict) -> Optional[ir.Term]:
             continue
         else:
             parts.append(ir.cmp("!=", p, ir.const(value)))
+    parts = [p for p in parts if p is not None]
     return ir.or_(*parts) if parts else None
+
+
+def _list_differs(p: ir.Var, items: list) -> Optional[ir.Term]:
+    """The contents of list parameter ``p`` differ from ``items``."""
+    elem = heap.elem_sort(p.kind)
+    if elem == ir.FLOAT and any(x != x for x in items):
+        return None  # a NaN item: equality cannot tell it apart
+    if elem == ir.STR and any(ord(c) > strmath.SOLVER_MAX_CODE_POINT
+                              for x in items for c in x):
+        return None
+    contents = ir.select(heap.initial_field(heap.field_key(p.kind)), ir.initial(p).ref)
+    value: ir.Term = ir.empty_seq(elem)
+    for x in items:
+        value = ir.arith("+", value, ir.op("seq_unit", ir.const(x), sort=ir.seq_sort(elem)))
+    return ir.cmp("!=", contents, value)

@@ -26,10 +26,18 @@ class _CannotWrite(Exception):
 
 def regression_test(ob: Obligation, pre: Dict[str, Any], limit: Optional[float]) -> str:
     """The text of a failing pytest function for the inputs ``pre`` (as they
-    were before the call), or "" when none could be written faithfully."""
+    were before the call), or "" when none could be written faithfully. It
+    never raises: a refutation stands without it."""
+    try:
+        return _checked(ob, pre, limit)
+    except Exception:  # noqa: BLE001 -- an aid; the counterexample is shown anyway
+        return ""
+
+
+def _checked(ob: Obligation, pre: Dict[str, Any], limit: Optional[float]) -> str:
     try:
         text, name = _write(ob, pre)
-    except _CannotWrite:
+    except (_CannotWrite, SyntaxError, ValueError):
         return ""
     try:
         namespace: dict = {}
@@ -70,18 +78,25 @@ def _write(ob: Obligation, pre: Dict[str, Any]):
         body.append(f"    {call}")
     else:
         rel = ob.relation
-        tree = ast.parse(rel.text.strip(), mode="eval")
-        olds: List[ast.expr] = []
+        tree = ast.parse("(\n" + rel.text + "\n)", mode="eval")  # as written, on many lines too
+        olds: Dict[str, str] = {}  # the text of each old(e) -> the name it is read into
         tree = _replace_olds(tree, olds, rel)
-        for i, e in enumerate(olds):
+        if olds:
+            # One deep copy of them all, taken before the call: two names for
+            # one object stay one object, as in the pre-state.
             _add(imports, "import copy")
-            body.append(f"old_{i} = copy.deepcopy({ast.unparse(e)})")
-        for free in _free_names(tree, set(ob.names) | {"result"} | {f"old_{i}" for i in range(len(olds))}):
+            names, exprs = list(olds.values()), list(olds)
+            if len(olds) == 1:
+                body.append(f"{names[0]} = copy.deepcopy({exprs[0]})")
+            else:
+                body.append(f"{', '.join(names)} = copy.deepcopy(({', '.join(exprs)}))")
+        for free in _free_names(tree, set(ob.names) | {"result"} | set(olds.values())):
             imports_for = _global_import(free, rel.globals)
             if imports_for:
                 _add(imports, imports_for)
         body.append(f"result = {call}")
-        condition = rel.text.strip() if not olds and "\n" not in rel.text else ast.unparse(tree)
+        condition = rel.text.strip() if not olds and "\n" not in rel.text \
+            else ast.unparse(tree.body)
         body.append(f"assert {condition}")
     imports = _grouped(imports)
     name = "test_" + _identifier(ob.call_name) + "_counterexample"
@@ -162,7 +177,9 @@ def _free_names(tree: ast.AST, bound: set) -> List[str]:
     return out
 
 
-def _replace_olds(tree: ast.Expression, olds: List[ast.expr], part) -> ast.Expression:
+def _replace_olds(tree: ast.Expression, olds: Dict[str, str], part) -> ast.Expression:
+    """Each ``old(e)`` replaced by a name (``old_waiting`` for ``old(waiting)``,
+    ``old_0``... otherwise); ``olds`` maps the text of ``e`` to it."""
     from refines.declare import old
 
     class Reader(ast.NodeTransformer):
@@ -174,8 +191,12 @@ def _replace_olds(tree: ast.Expression, olds: List[ast.expr], part) -> ast.Expre
             elif isinstance(func, ast.Attribute) and isinstance(func.value, ast.Name):
                 target = getattr(part.globals.get(func.value.id), func.attr, None)
             if target is old and len(node.args) == 1 and not node.keywords:
-                olds.append(node.args[0])
-                return ast.copy_location(ast.Name(f"old_{len(olds) - 1}", ast.Load()), node)
+                text = ast.unparse(node.args[0])
+                if text not in olds:
+                    arg = node.args[0]
+                    olds[text] = (f"old_{arg.id}" if isinstance(arg, ast.Name)
+                                  else f"old_{len(olds)}")
+                return ast.copy_location(ast.Name(olds[text], ast.Load()), node)
             return self.generic_visit(node)
 
     return ast.fix_missing_locations(Reader().visit(tree))
