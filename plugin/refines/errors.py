@@ -273,11 +273,13 @@ def format_message(key: str, **fields: object) -> tuple:
 
 @dataclass
 class Untranslatable(Exception):
-    """A construct the translator does not model (verdict ``unknown``)."""
+    """A construct the translator does not model (the obligation is tested
+    instead of proved; ``unknown`` when it cannot be tested either)."""
 
     key: str
     line: int
     fields: Dict[str, object] = field(default_factory=dict)
+    path: Optional[str] = None  # the file of ``line``, when it is not the spec's file
 
     def __post_init__(self) -> None:
         super().__init__(self.text)
