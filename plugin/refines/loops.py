@@ -258,8 +258,13 @@ class Loops:
         k = ir.opaque(ir.INT)
         zero = ir.const(0)
         if isinstance(v, ir.Term):  # a str: one of its characters
-            self.constrain(ir.and_(ir.cmp(">=", k, zero), ir.cmp("<", k, ir.str_len(v))))
-            return k, ir.op("getitem", v, k, sort=ir.STR)
+            char = ir.op("getitem", v, k, sort=ir.STR)
+            # `char in s` follows from the index, but stated, the solver
+            # need not find that out (it may not, within the budget).
+            self.constrain(ir.and_(ir.cmp(">=", k, zero), ir.cmp("<", k, ir.str_len(v)),
+                                   ir.cmp("==", ir.str_len(char), ir.const(1)),
+                                   ir.op("contains", char, v, sort=ir.BOOL)))
+            return k, char
         if isinstance(v, ir.Tup):
             self.constrain(ir.and_(ir.cmp(">=", k, zero), ir.cmp("<", k, ir.const(len(v.items)))))
             if not v.items:
@@ -275,8 +280,10 @@ class Loops:
             return k, fresh_like(ir.opaque(heap.elem_sort(v.kind)))
         items = self.contents(v)
         n = ir.op("len", items, sort=ir.INT)
-        self.constrain(ir.and_(ir.cmp(">=", k, zero), ir.cmp("<", k, n)))
-        return k, ir.op("nth", items, k, sort=heap.elem_sort(v.kind))
+        item = ir.op("nth", items, k, sort=heap.elem_sort(v.kind))
+        self.constrain(ir.and_(ir.cmp(">=", k, zero), ir.cmp("<", k, n),
+                               ir.op("seq_contains", item, items, sort=ir.BOOL)))
+        return k, item
 
     def range_iteration(self, call: nodes.Call) -> Optional[Iteration]:
         # range(stop), range(start, stop[, step]) (Built-in Types, "Ranges"):

@@ -49,6 +49,9 @@ _SCALARS = {int: "int", bool: "bool", float: "float", str: "str"}
 _SORTS = {"int": ir.INT, "bool": ir.BOOL, "float": ir.FLOAT, "str": ir.STR}
 # C's Py_ssize_t: arguments CPython converts to it raise OverflowError outside it.
 SSIZE = 2 ** 63
+# How an untranslated call's unmodelled outcome ends: it stands for the call
+# raising (any exception), which the function does not catch.
+MAY_RAISE = "may raise an exception (not translated)"
 
 
 def hint_shape(hint) -> Optional[tuple]:
@@ -228,7 +231,7 @@ class Opaque:
             return ir.const(0)
         self.untranslated_part(f"the call `{text}` (line {node.lineno})")
         self.unmodelled_when(ir.opaque(ir.BOOL), node.lineno,
-                             f"`{text}` may raise an exception (not translated)")
+                             f"`{text}` {MAY_RAISE}")
         extra = [a for a in args] + ([shape[1]] if shape and shape[0] in ("list", "obj") else [])
         self.havoc(self.fields_in_play(extra))
         if discarded:
