@@ -18,6 +18,7 @@ raises ValueError) and ``enumerate`` in Built-in Functions.
 
 from __future__ import annotations
 
+import copy
 import random
 
 import pytest
@@ -41,7 +42,7 @@ def kinds(t, inputs):
     """How CPython ended on the inputs: "returned" or the exception's name."""
     out = set()
     for args in inputs:
-        r = t.run(*args)
+        r = t.run(*copy.deepcopy(args))
         out.add(r[0] if r[0] == "returned" else r[1].__name__)
     return out
 
@@ -66,7 +67,7 @@ def test_for_over_a_list_with_continue_break_and_else():
     inputs = [(xs,) for xs in lists()]
     t = check_sound(source, inputs)
     # Both exits are met: a break (positive result) and the else clause.
-    results = {t.run(*a)[1] > 0 for a in inputs}
+    results = {t.run(*copy.deepcopy(a))[1] > 0 for a in inputs}
     assert results == {True, False}
     assert t.behaviour.untranslated == (f"the for loop (line {line_of(source, 'for x')})",)
 
@@ -263,7 +264,7 @@ def test_while_with_break_continue_and_else():
     """
     inputs = [(n,) for n in range(-2, 12)]
     t = check_sound(source, inputs)
-    assert {t.run(*a)[1] > 0 for a in inputs} == {True, False}
+    assert {t.run(*copy.deepcopy(a))[1] > 0 for a in inputs} == {True, False}
     assert t.behaviour.assumptions == (
         f"the while loop at line {line_of(source, 'while')} finishes (termination is not proved)",)
 

@@ -32,6 +32,9 @@ def same_object(a: ir.Term, b: ir.Term) -> ir.Term:
     new object; distinct parameters are taken to be distinct objects."""
     if a is b:
         return ir.TRUE
+    if ir.is_opaque(a) or ir.is_opaque(b):
+        # What an untranslated part returned may be any object, this one too.
+        return ir.opaque(ir.BOOL)
     if isinstance(a, ir.Ite):
         return ir.ite(a.cond, same_object(a.then, b), same_object(a.orelse, b))
     if isinstance(b, ir.Ite):
