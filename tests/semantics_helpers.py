@@ -1124,8 +1124,12 @@ def _matches(ev: Evaluator, lowered, value: Any, arrays: dict, numbers: dict, ma
         if ref_kind.startswith("list:"):
             if type(value) is not list:
                 return false
+            elem = heap.elem_sort(ref_kind)
+            # A bool stored in a list[int] is modelled as the int it equals
+            # (the same allowance as ``same``).
+            items = [int(x) if elem == ir.INT and type(x) is bool else x for x in value]
             try:
-                contents = ev._seq_constant(value, heap.elem_sort(ref_kind))
+                contents = ev._seq_constant(items, elem)
             except TypeError:
                 return false
             return z3.And(same, z3.Select(_array(ev, arrays, ref_kind), ref) == contents)

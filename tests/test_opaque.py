@@ -18,6 +18,7 @@ operations". Values marked "CPython 3.11" were confirmed by running it here.
 from __future__ import annotations
 
 import copy
+import random
 
 import pytest
 
@@ -378,17 +379,21 @@ def test_wrong_arguments_raise_type_error_as_in_python():
 
 @pytest.mark.parametrize("call", [
     "xs.sort()", "xs.sort(reverse=True)", "xs.reverse()", "xs.count(n)", "xs.index(n)",
-    "xs.index(n, 1)", "xs.insert(n, 9)", "xs.remove(n)", "xs.clear()", "xs.copy()",
+    "xs.index(n, 1)", "xs.index(n, u)", "xs.index(n, 0, u)", "xs.insert(n, 9)",
+    "xs.remove(n)", "xs.clear()", "xs.copy()", "xs.count(u)",
 ])
 def test_list_methods_admit_what_python_does(call):
     source = f"""
-    def f(xs: list[int], ys: list[int], n: int):
+    from typing import Optional
+
+    def f(xs: list[int], ys: list[int], n: int, u: Optional[int]):
         r = {call}
         return r, len(ys)
     """
-    inputs = [(xs, ys, n) for xs in LISTS for ys in LISTS[:3] for n in (-5, -1, 0, 1, 2, 4)]
+    inputs = [(xs, ys, n, u) for xs in LISTS for ys in LISTS[:3] for n in (-5, -1, 0, 1, 2, 4)
+              for u in (None, 1)]
     # The same list passed twice: a change through xs shows in ys.
-    inputs += [(xs, xs, n) for xs in ([3, 1], [2, 2, -5]) for n in (-1, 2)]
+    inputs += [(xs, xs, n, 1) for xs in ([3, 1], [2, 2, -5]) for n in (-1, 2)]
     inputs = [tuple(list(a) if isinstance(a, list) else a for a in args) for args in inputs]
     t = check_sound(source, inputs)
     if call.startswith(("xs.index", "xs.remove")):
@@ -513,3 +518,63 @@ def _vars(term):
             out.append(t)
         stack.extend(ir.children(t))
     return out
+
+
+# ---------------------------------------------------------------- arguments of every kind
+
+ARGUMENT_POOL = ("t", "n", "u", "v", "b", "x", "None", "xs")
+
+
+def argument_calls(owner: str, count: int, seed: int):
+    """Calls of the table's methods with arguments of every kind, positional
+    and by keyword: CPython's argument parsing decides which raise TypeError
+    (or OverflowError), and the translation must admit what it does."""
+    rnd = random.Random(seed)
+    table = methods.STR_METHODS if owner == "s" else methods.LIST_METHODS
+    calls = []
+    for name in sorted(table):
+        rule = table[name]
+        for _ in range(count):
+            k = rnd.randint(0, len(rule.params) + 1)
+            args = [rnd.choice(ARGUMENT_POOL) for _ in range(k)]
+            if rule.keywords and args and rnd.random() < 0.5:
+                names = [p.name for p in rule.params] + ["bogus"]
+                args[-1] = f"{rnd.choice(names)}={args[-1]}"
+            calls.append(f"{owner}.{name}({', '.join(args)})")
+    return sorted(set(calls))
+
+
+ARGUMENT_INPUTS = [(s, t, n, u, v, b, 1.5, [1, 2])
+                   for s in ("", "a,b") for t in ("", ",") for n in (-1, 2)
+                   for u in (None, "a") for v in (None, 1) for b in (False, True)]
+
+
+def check_argument_calls(calls):
+    for call in calls:
+        source = f"""
+        from typing import Optional
+
+        def f(s: str, t: str, n: int, u: Optional[str], v: Optional[int], b: bool,
+              x: float, xs: list[int]):
+            return {call}
+        """
+        try:
+            t = translated(source)
+        except Untranslatable as exc:
+            assert exc.key in ("method", "mixed"), (call, exc.text)
+            continue
+        inputs = [tuple(list(a) if isinstance(a, list) else a for a in args)
+                  for args in ARGUMENT_INPUTS]
+        bad = [m for m in (admits(t.behaviour, t.fn, a, t.evaluator) for a in inputs) if m]
+        assert not bad, f"{call}: {bad[0]}"
+
+
+@pytest.mark.parametrize("owner", ["s", "xs"])
+def test_arguments_of_every_kind(owner):
+    check_argument_calls(argument_calls(owner, 2, seed=1))
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("owner", ["s", "xs"])
+def test_arguments_of_every_kind_many(owner):
+    check_argument_calls(argument_calls(owner, 12, seed=2))

@@ -38,7 +38,10 @@ _REQUIRED = object()
 @dataclass(frozen=True)
 class Param:
     name: str
-    accepts: str  # "str", "str|None", "index", "slice-index", "fill", "flag", "none"
+    # "str", "str|None", "index" (C's ssize_t), "slice-index" (an int, clamped,
+    # or None), "slice-int" (an int, clamped), "fill" (one character), "flag"
+    # (a bool), "none" (only None), "item" and "iterable" (any value)
+    accepts: str
     default: object = _REQUIRED
 
 
@@ -191,8 +194,9 @@ LIST_METHODS = {
                    keywords=True, keyword_only=True, effect="shuffle"),
     "reverse": Method((), "none", effect="shuffle"),
     "count": Method((Param("value", "item"),), "int"),
-    "index": Method((Param("value", "item"), Param("start", "slice-index", None),
-                     Param("stop", "slice-index", None)), "exact"),
+    # list.index's window takes ints only: index(x, None) raises TypeError.
+    "index": Method((Param("value", "item"), Param("start", "slice-int", None),
+                     Param("stop", "slice-int", None)), "exact"),
     "insert": Method((Param("index", "index"), Param("object", "item")), "exact"),
     "remove": Method((Param("value", "item"),), "exact"),
     "clear": Method((), "exact"),
@@ -468,20 +472,23 @@ class Methods:
         found = self.compare("in", x, v, node)
         if ir.is_false(self.live):
             return ir.NONE
-        item = x if heap.elem_sort(v.kind) != ir.INT else ir.as_int(x)
-        if any(w is not None and w is not ir.NONE for w in window):
-            # A window: ValueError under a condition not modelled; the index found
-            # holds x and lies in the list.
+        windowed = any(w is not None and w is not ir.NONE for w in window)
+        if windowed:
+            # A window: ValueError also under a condition not modelled.
             self.abstracted_method(node, "list")
             self.raise_when(ir.or_(ir.not_(found), ir.opaque(ir.BOOL)), ValueError,
                             node.lineno, "x is not in list (within the window)")
+        else:
+            self.raise_when(ir.not_(found), ValueError, node.lineno, "x is not in list")
+        if ir.is_false(self.live):
+            return ir.NONE
+        item = x if heap.elem_sort(v.kind) != ir.INT else ir.as_int(x)
+        if windowed:
+            # The index found holds x and lies in the list.
             k = ir.opaque(ir.INT)
             self.constrain(ir.and_(ir.cmp(">=", k, ir.const(0)), ir.cmp("<", k, n),
                                    ir.cmp("==", ir.op("nth", items, k, sort=item.sort), item)))
             return k
-        self.raise_when(ir.not_(found), ValueError, node.lineno, "x is not in list")
-        if ir.is_false(self.live):
-            return ir.NONE
         self.abstracted_method(node, "list")
         k = ir.opaque(ir.INT)
         before = ir.op("slice_to", items, k, sort=items.sort)
