@@ -223,6 +223,41 @@ class Loops:
         (self.env, self.heap, self.live, self.outcomes, self.assumptions,
          self.untranslated, self.cuts) = saved
 
+    # ------------------------------------------------------------ unpacking
+
+    def unpacked(self, value: ir.Value, n: int, target) -> Optional[ir.Tup]:
+        """The items of a str or a list unpacked into ``n`` names: ValueError
+        unless it has exactly ``n`` (Language Reference, 7.2 Assignment
+        statements); other values are not iterable (TypeError)."""
+        if isinstance(value, ir.Opt):
+            self.raise_when(value.none, TypeError, target.lineno,
+                            "cannot unpack non-iterable NoneType object")
+            value = value.value
+        if isinstance(value, ir.Ref) and not value.kind.startswith("list:"):
+            self.refuse("expression", target.lineno, {
+                "construct": "unpacking a " + heap.describe(value.kind) + " object"})
+            return None
+        if isinstance(value, ir.Ref) or (isinstance(value, ir.Term) and value.sort == ir.STR):
+            items = self.contents(value) if isinstance(value, ir.Ref) else value
+            size = ir.op("len", items, sort=ir.INT) if isinstance(value, ir.Ref) \
+                else ir.str_len(value)
+            self.raise_when(ir.cmp("!=", size, ir.const(n)), ValueError, target.lineno,
+                            f"unpacking a sequence into {n} names")
+            if ir.is_false(self.live):
+                return None
+            if isinstance(value, ir.Ref):
+                sort = heap.elem_sort(value.kind)
+                return ir.Tup(tuple(ir.op("nth", items, ir.const(i), sort=sort)
+                                    for i in range(n)))
+            return ir.Tup(tuple(self.str_subscript_at(value, i) for i in range(n)))
+        self.raise_when(ir.TRUE, TypeError, target.lineno, "cannot unpack a non-iterable value")
+        return None
+
+    def str_subscript_at(self, s: ir.Term, i: int) -> ir.Term:
+        if isinstance(s, ir.Const):
+            return ir.const(s.value[i])
+        return ir.op("getitem", s, ir.const(i), sort=ir.STR)
+
     # ------------------------------------------------------------ iterables
 
     def iteration(self, iter_node, node) -> Optional[Iteration]:

@@ -29,7 +29,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable, Optional, Tuple
 
+from astroid import nodes
+
 from refines import heap, ir
+from refines.calls import STR_METHODS as MODELLED_STR_METHODS
 from refines.opaque import SSIZE
 
 _REQUIRED = object()
@@ -206,6 +209,48 @@ LIST_METHODS = {
 
 class Methods:
     """Translator methods for the table's str and list methods."""
+
+    def method_call(self, node: nodes.Call) -> ir.Value:
+        """``subject.name(...)`` for a value: the str and list methods
+        modelled (calls, heap), then the table's (methods), then a method of
+        an object of a modelled class, which is not translated (opaque)."""
+        func = node.func
+        name = func.attrname
+        subject = self.expr(func.expr)
+        if isinstance(subject, ir.Opt):
+            self.raise_when(subject.none, AttributeError, node.lineno,
+                            f"'NoneType' object has no attribute '{name}'")
+            subject = subject.value
+        args = [self.expr(a) for a in node.args]
+        kwargs = {k.arg: self.expr(k.value) for k in node.keywords or []}
+        if ir.is_false(self.live):
+            return ir.const(0)  # an argument always raises: the call never happens
+        result = None
+        if isinstance(subject, ir.Ref) and subject.kind.startswith("list:"):
+            if not kwargs:
+                result = self.list_method(subject, name, args, node)
+            if result is None:
+                result = self.table_method(subject, name, args, kwargs, node)
+            if result is None:
+                return self.refuse("method", node.lineno, {
+                    "method": "list." + name, "allowed": ", ".join(
+                        "list." + m for m in ("append", "extend", "pop") + tuple(LIST_METHODS))})
+        elif isinstance(subject, ir.Term) and subject.sort == ir.STR:
+            if not kwargs:
+                result = self.str_method(name, subject, args, node)
+            if result is None:
+                result = self.table_method(subject, name, args, kwargs, node)
+            if result is None:
+                return self.refuse("method", node.lineno, {
+                    "method": "str." + name, "allowed": ", ".join(
+                        "str." + m for m in MODELLED_STR_METHODS + tuple(STR_METHODS))})
+        elif isinstance(subject, ir.Ref) and self.role == "body":
+            result = self.call_method_of_object(node, subject, name,
+                                                args + list(kwargs.values()))
+        if result is not None:
+            return result
+        return self.refuse("call", node.lineno, {"callee": func.as_string()})
+
 
     def table_method(self, subject, name: str, args: list, kwargs: dict, node):
         """``subject.name(*args, **kwargs)`` by the table; None when the

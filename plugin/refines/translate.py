@@ -23,7 +23,11 @@ One visitor method per node kind; anything else raises ``Untranslatable``,
 the only road to an ``unknown`` verdict. The operations on particular kinds
 of value live in mixins: ``calls`` (builtins, ``math``, str methods),
 ``compare`` (==, ordering, ``is``, ``in``, ``isinstance``), ``strings`` (str
-operators, indexing, slicing) and ``heap`` (lists and objects).
+operators, indexing, slicing) and ``heap`` (lists and objects). Parts of a
+body that are not translated but abstracted by opaque values live in
+``opaque`` (calls that are not modelled, int bitwise operators), ``methods``
+(the table of further str and list methods) and ``loops`` (``for``,
+``while``); ``values`` holds what locals can be across paths.
 """
 
 from __future__ import annotations
@@ -37,13 +41,12 @@ import astroid
 from astroid import nodes
 
 from refines import heap, ir
-from refines.calls import _CALLS, STR_METHODS, Calls
-from refines.compare import Comparisons, optional_parts
+from refines.calls import _CALLS, Calls
+from refines.compare import Comparisons
 from refines.errors import SpecError, Untranslatable
 from refines.heap import Heap
 from refines.loops import Loops
-from refines.methods import LIST_METHODS, Methods
-from refines.methods import STR_METHODS as TABLE_STR_METHODS
+from refines.methods import Methods
 from refines.opaque import Opaque
 from refines.strings import Strings, str_const
 from refines.values import Conflict, MaybeUnbound, merge, shape  # noqa: F401 -- re-exported
@@ -292,39 +295,6 @@ class Translator(Calls, Heap, Comparisons, Strings, Methods, Opaque, Loops):
                 return
         raise Untranslatable("expression", target.lineno,
                              {"construct": "assignment to " + target.as_string()})
-
-    def unpacked(self, value: ir.Value, n: int, target) -> Optional[ir.Tup]:
-        """The items of a str or a list unpacked into ``n`` names: ValueError
-        unless it has exactly ``n`` (Language Reference, 7.2 Assignment
-        statements); other values are not iterable (TypeError)."""
-        if isinstance(value, ir.Opt):
-            self.raise_when(value.none, TypeError, target.lineno,
-                            "cannot unpack non-iterable NoneType object")
-            value = value.value
-        if isinstance(value, ir.Ref) and not value.kind.startswith("list:"):
-            self.refuse("expression", target.lineno, {
-                "construct": "unpacking a " + heap.describe(value.kind) + " object"})
-            return None
-        if isinstance(value, ir.Ref) or (isinstance(value, ir.Term) and value.sort == ir.STR):
-            items = self.contents(value) if isinstance(value, ir.Ref) else value
-            size = ir.op("len", items, sort=ir.INT) if isinstance(value, ir.Ref) \
-                else ir.str_len(value)
-            self.raise_when(ir.cmp("!=", size, ir.const(n)), ValueError, target.lineno,
-                            f"unpacking a sequence into {n} names")
-            if ir.is_false(self.live):
-                return None
-            if isinstance(value, ir.Ref):
-                sort = heap.elem_sort(value.kind)
-                return ir.Tup(tuple(ir.op("nth", items, ir.const(i), sort=sort)
-                                    for i in range(n)))
-            return ir.Tup(tuple(self.str_subscript_at(value, i) for i in range(n)))
-        self.raise_when(ir.TRUE, TypeError, target.lineno, "cannot unpack a non-iterable value")
-        return None
-
-    def str_subscript_at(self, s: ir.Term, i: int) -> ir.Term:
-        if isinstance(s, ir.Const):
-            return ir.const(s.value[i])
-        return ir.op("getitem", s, ir.const(i), sort=ir.STR)
 
     def stmt_Return(self, node: nodes.Return) -> None:
         value = ir.NONE if node.value is None else self.expr(node.value)
@@ -856,47 +826,6 @@ class Translator(Calls, Heap, Comparisons, Strings, Methods, Opaque, Loops):
             result = self.call_of_object(node, callee, [self.expr(a) for a in node.args])
             if result is not None:
                 return result
-        return self.refuse("call", node.lineno, {"callee": func.as_string()})
-
-    def method_call(self, node: nodes.Call) -> ir.Value:
-        """``subject.name(...)`` for a value: the str and list methods
-        modelled (calls, heap), then the table's (methods), then a method of
-        an object of a modelled class, which is not translated (opaque)."""
-        func = node.func
-        name = func.attrname
-        subject = self.expr(func.expr)
-        if isinstance(subject, ir.Opt):
-            self.raise_when(subject.none, AttributeError, node.lineno,
-                            f"'NoneType' object has no attribute '{name}'")
-            subject = subject.value
-        args = [self.expr(a) for a in node.args]
-        kwargs = {k.arg: self.expr(k.value) for k in node.keywords or []}
-        if ir.is_false(self.live):
-            return ir.const(0)  # an argument always raises: the call never happens
-        result = None
-        if isinstance(subject, ir.Ref) and subject.kind.startswith("list:"):
-            if not kwargs:
-                result = self.list_method(subject, name, args, node)
-            if result is None:
-                result = self.table_method(subject, name, args, kwargs, node)
-            if result is None:
-                return self.refuse("method", node.lineno, {
-                    "method": "list." + name, "allowed": ", ".join(
-                        "list." + m for m in ("append", "extend", "pop") + tuple(LIST_METHODS))})
-        elif isinstance(subject, ir.Term) and subject.sort == ir.STR:
-            if not kwargs:
-                result = self.str_method(name, subject, args, node)
-            if result is None:
-                result = self.table_method(subject, name, args, kwargs, node)
-            if result is None:
-                return self.refuse("method", node.lineno, {
-                    "method": "str." + name, "allowed": ", ".join(
-                        "str." + m for m in STR_METHODS + tuple(TABLE_STR_METHODS))})
-        elif isinstance(subject, ir.Ref) and self.role == "body":
-            result = self.call_method_of_object(node, subject, name,
-                                                args + list(kwargs.values()))
-        if result is not None:
-            return result
         return self.refuse("call", node.lineno, {"callee": func.as_string()})
 
     # ------------------------------------------------------------ helpers
