@@ -1,4 +1,4 @@
-"""Run the four benchmarks and print a plain-text summary (``make bench``).
+"""Run the benchmarks and print a plain-text summary (``make bench``).
 
 Run from the repository root: ``python tests/benchmarks/run_all.py``;
 ``--quick`` takes fewer repeats (a smoke run, not numbers to quote).
@@ -16,6 +16,7 @@ from typing import Optional, Sequence
 
 import z3
 
+import bench_fallback
 import bench_overhead
 import bench_rlimit
 import bench_sequential_ifs
@@ -38,9 +39,15 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
     parser.add_argument("--quick", action="store_true", help="few repeats: a smoke run")
     parser.add_argument("--no-strategy", action="store_true",
                         help="skip the float solver strategy benchmark (the longest, ~10 min)")
+    parser.add_argument("--no-fallback", action="store_true",
+                        help="skip the tester against plain hypothesis (~2 min)")
     args = parser.parse_args(argv)
     overhead_repeats, seq_repeats, rl_repeats = (3, 3, 1) if args.quick else (20, 15, 3)
 
+    if not args.no_fallback:
+        # Before any hypothesis draw, so that its pool of constants is a user's
+        # (see bench_fallback); the other benchmarks draw only in the tester.
+        bench_fallback.leave_plugin_out_of_hypothesis_constants()
     print(f"machine: {machine()}")
     print("(times on a shared, noisy machine: compare medians, not single runs)\n")
     started = time.perf_counter()
@@ -63,6 +70,11 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
         string_runs = 1 if args.quick else 3
         strings = bench_string_strategy.run(string_runs, bench_string_strategy.BUDGET)
         bench_string_strategy.table(strings, string_runs, bench_string_strategy.BUDGET)
+        print()
+    fallback = None
+    if not args.no_fallback:
+        print("=" * 30, "6. the tester against plain hypothesis", "=" * 30)
+        fallback = bench_fallback.run(*((2, 3) if args.quick else (5, 20)))["summary"]
         print()
 
     print("=" * 30, "summary", "=" * 30)
@@ -119,6 +131,17 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
             print(f"  {case.label:<22} {alone.verdict_text():<20}"
                   f"{statistics.median(alone.seconds):>7.2f} -> "
                   f"{mine.verdict_text():<20}{statistics.median(mine.seconds):>7.2f}")
+    if fallback is not None:
+        print()
+        print("the tester against plain hypothesis (examples/s on the correct version; planted "
+              "bug: found in runs, median ms to the first failing run)")
+        for name, rate in fallback["rate"].items():
+            find = fallback["find"][name]
+            plain = "-" if rate["plain_stopped"] else f"{rate['plain']:.0f}"
+            print(f"  {name:<16} ours {rate['ours']:>5.0f}, plain {plain:>5} ex/s;  ours "
+                  f"{find['ours_found'][0]}/{find['ours_found'][1]} in "
+                  f"{bench_fallback.ms(find['ours_first'])}, plain {find['plain_found'][0]}/"
+                  f"{find['plain_found'][1]} in {bench_fallback.ms(find['plain_first'])}")
     print(f"\ntotal benchmark time: {time.perf_counter() - started:.0f} s")
     return 0
 
