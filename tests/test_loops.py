@@ -133,6 +133,18 @@ def test_for_over_a_tuple_and_unpacking_targets():
     """, [(x,) for x in range(-4, 5)])
 
 
+def test_unpacking_items_of_different_shapes_is_refused():
+    source = """
+    def f(x: int) -> int:
+        for a, b in ((1, x), (x,)):
+            x += a
+        return x
+    """
+    with pytest.raises(Untranslatable) as info:
+        translated(source)
+    assert (info.value.key, info.value.line) == ("mixed", line_of(source, "for a, b"))
+
+
 def test_unpacking_a_str_or_a_list():
     # 7.2 Assignment statements: an iterable of exactly as many items.
     t = check_sound("""

@@ -229,6 +229,10 @@ class Loops:
         """The items of a str or a list unpacked into ``n`` names: ValueError
         unless it has exactly ``n`` (Language Reference, 7.2 Assignment
         statements); other values are not iterable (TypeError)."""
+        if isinstance(value, Conflict):  # e.g. the item of a tuple of tuples of two lengths
+            self.refuse("mixed", target.lineno, {
+                "construct": target.as_string(), "shapes": value.shapes})
+            return None
         if isinstance(value, ir.Opt):
             self.raise_when(value.none, TypeError, target.lineno,
                             "cannot unpack non-iterable NoneType object")
@@ -364,7 +368,7 @@ class Loops:
     def enumerate_iteration(self, call: nodes.Call) -> Optional[Iteration]:
         # enumerate(iterable, start=0) yields (start + k, k-th item).
         inner = self.walk(self.expr(call.args[0]), call.args[0])
-        if inner is None:
+        if not isinstance(inner, Iteration) or ir.is_false(self.live):
             return None
         value = inner.value
         start = ir.const(0)
