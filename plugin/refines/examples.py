@@ -28,6 +28,8 @@ from refines.source import Obligation, SpecPart
 
 # At most this many boundary values per parameter, nearest the constants first.
 MAX_BOUNDARY = 24
+# Lists get boundary lengths at int constants up to this one.
+MAX_LIST_LENGTH = 64
 # Floats at the edges of IEEE 754 binary64 (IEEE 754-2019, 3.3 and 3.4): the
 # smallest subnormal, the largest subnormal, the smallest normal, the largest
 # finite value, signed zeros, infinities and NaN.
@@ -423,11 +425,18 @@ def constants(ob: Obligation) -> Constants:
     parts = [p for p in (ob.relation, ob.assuming) if p is not None]
     parts += [p for _, p in ob.raises]
     for part in parts:
-        for n in part.body.nodes_of_class((nodes.Const, nodes.Name)):
+        for n in part.body.nodes_of_class((nodes.Const, nodes.Name, nodes.BinOp,
+                                           nodes.UnaryOp)):
             if isinstance(n, nodes.Const):
                 add(n.value)
-            elif n.name not in part.params:
-                add(part.globals.get(n.name))
+            elif isinstance(n, nodes.Name):
+                if n.name not in part.params:
+                    add(part.globals.get(n.name))
+            else:  # a constant worked out from others: `2 * WEEK_DAYS`
+                try:
+                    add(_constant(n, part, set(part.params)))
+                except Exception:  # noqa: BLE001 -- it mentions a parameter, or fails
+                    pass
     for value in _body_constants(ob):
         add(value)
     return out
@@ -448,10 +457,30 @@ def _body_constants(ob: Obligation) -> List[Any]:
             out.append(n.value)
         elif isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load) and n.id in globals_:
             out.append(globals_[n.id])
-        elif isinstance(n, ast.UnaryOp) and isinstance(n.op, ast.USub) \
-                and isinstance(n.operand, ast.Constant) and isinstance(n.operand.value, (int, float)):
-            out.append(-n.operand.value)
+        elif isinstance(n, (ast.BinOp, ast.UnaryOp)) and _foldable(n, globals_):
+            try:  # a constant worked out from others: `-1`, `2 * WEEK_DAYS`
+                out.append(eval(compile(ast.Expression(n), "<constant>", "eval"),  # noqa: S307
+                                dict(globals_)))
+            except Exception:  # noqa: BLE001 -- e.g. a division by zero: not a constant
+                pass
     return out
+
+
+def _foldable(node: ast.AST, globals_: dict) -> bool:
+    """Only numbers, module-level numbers and arithmetic: nothing that runs code."""
+    for n in ast.walk(node):
+        if isinstance(n, ast.Name):
+            if not isinstance(globals_.get(n.id), (int, float)) or isinstance(
+                    globals_.get(n.id), bool):
+                return False
+        elif not isinstance(n, (ast.BinOp, ast.UnaryOp, ast.Constant, ast.operator,
+                                ast.unaryop, ast.Load)):
+            return False
+        elif isinstance(n, ast.Constant) and not isinstance(n.value, (int, float)):
+            return False
+        elif isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow):
+            return False  # 10 ** 10 ** 10 would take forever
+    return True
 
 
 def boundary_values(hint: Any, consts: Constants) -> List[Any]:
@@ -490,7 +519,13 @@ def boundary_values(hint: Any, consts: Constants) -> List[Any]:
     origin, args = typing.get_origin(hint), typing.get_args(hint)
     if origin in (list, typing.List) and len(args) == 1:
         items = boundary_values(args[0], consts)[:4]
-        return [[]] + [[v] for v in items] + ([[items[0], items[0]]] if items else [])
+        out = [[]] + [[v] for v in items] + ([[items[0], items[0]]] if items else [])
+        # Lengths at the int constants: a limit of 6 items gets 5, 6 and 7.
+        plain = boundary_values(args[0], Constants())[:1] or items[:1]
+        for c in consts.numbers:
+            if plain and isinstance(c, int) and 2 < c <= MAX_LIST_LENGTH:
+                out += [plain * (c - 1), plain * c, plain * (c + 1)]
+        return _unique(out)
     return []
 
 

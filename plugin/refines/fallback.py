@@ -42,6 +42,10 @@ RUN_LIMIT = 0.25
 # After this many stopped runs, the tester stops drawing: the function is
 # slow on the inputs drawn, and more of them would only cost time.
 MAX_OVERRUNS = 5
+# The draws made before deciding whether drawing is worth it, and the share of
+# them that `assuming` may reject before the solver is asked for inputs instead.
+PROBE_DRAWS = 20
+REJECTED_SHARE = 0.9
 
 
 @dataclass
@@ -127,26 +131,23 @@ class Tester:
         self.counting = False
         return "fail"
 
-    def draw(self, plan: examples.Plan, count: int) -> None:
-        """Up to ``count`` examples drawn by hypothesis; a failure is shrunk."""
+    def draw(self, plan: examples.Plan, count: int, seed_offset: int = 0,
+             first: bool = False) -> bool:
+        """Up to ``count`` examples drawn by hypothesis; a failure is shrunk.
+        In the ``first`` round, hypothesis's own check that its draws are not
+        mostly filtered out stays on, and stops the round early; the answer
+        says whether it did."""
         from hypothesis import HealthCheck, Phase, Verbosity, given, reject, seed, settings
         from hypothesis import strategies as st
 
-        shares = {q: st.booleans() for q in plan.shares}
         tester = self
 
         class Failed(Exception):
             pass
 
-        @settings(max_examples=count, database=None, deadline=None, derandomize=False,
-                  phases=[Phase.generate, Phase.shrink], verbosity=Verbosity.quiet,
-                  suppress_health_check=list(HealthCheck), report_multiple_bugs=False,
-                  print_blob=False)
-        @seed(self.stats.seed)
-        @given(case=st.fixed_dictionaries(plan.strategies), share=st.fixed_dictionaries(shares))
-        def probe(case, share):
+        def probe(case, **share):
             inputs = dict(case)
-            for q, shared in share.items():
+            for q, shared in share.get("share", {}).items():
                 if shared:
                     inputs[q] = inputs[plan.shares[q]]  # one object passed twice
             outcome = tester.example(inputs)
@@ -155,31 +156,70 @@ class Tester:
             if outcome != "pass":
                 reject()
 
-        with _quiet_storage():
+        strategies = {"case": st.fixed_dictionaries(plan.strategies)}
+        if plan.shares:  # only then: an empty dictionary strategy costs draws too
+            strategies["share"] = st.fixed_dictionaries({q: st.booleans() for q in plan.shares})
+        quiet = [h for h in HealthCheck if not (first and h == HealthCheck.filter_too_much)]
+        probe = settings(max_examples=count, database=None, deadline=None, derandomize=False,
+                         phases=[Phase.generate, Phase.shrink], verbosity=Verbosity.quiet,
+                         suppress_health_check=quiet, report_multiple_bugs=False,
+                         print_blob=False)(seed(self.stats.seed + seed_offset)(
+                             given(**strategies)(probe)))
+        with _settled_hypothesis():
             try:
                 probe()  # the smallest failure is replayed last: self.failure
             except Failed:
                 pass
             except Exception as exc:  # noqa: BLE001 -- hypothesis's own ways to stop
-                if self.failure is None and type(exc).__name__ not in (
-                        "Unsatisfiable", "FailedHealthCheck"):
+                if self.failure is None and type(exc).__name__ == "FailedHealthCheck":
+                    return True
+                if self.failure is None and type(exc).__name__ != "Unsatisfiable":
                     raise
+        return False
 
 
 @contextlib.contextmanager
-def _quiet_storage():
-    """Keep hypothesis's caches out of the user's folders: it would otherwise
-    create ``.hypothesis/`` in the working directory."""
+def _settled_hypothesis():
+    """Run hypothesis so that it writes nothing in the user's folders and
+    draws the same way whatever else is imported.
+
+    Its caches go to the temporary folder (it would otherwise create
+    ``.hypothesis/`` in the working directory). And it does not draw from its
+    pool of constants of the modules imported so far: that pool grows with
+    every module pytest imports, so the inputs would depend on ``-k`` or on
+    how xdist splits the run. The tester's own boundary values take the
+    constants of the spec and the body instead. The pool is reached through
+    hypothesis internals; where they differ (another version), it is left as is.
+    """
     from hypothesis import configuration
 
     key = "__hypothesis_home_directory"
     before = vars(configuration).get(key)
-    where = Path(tempfile.gettempdir()) / f"pytest-refines-{os.getuid() if hasattr(os, 'getuid') else 'user'}" / "hypothesis"
-    configuration.set_hypothesis_home_dir(where)
+    user = os.getuid() if hasattr(os, "getuid") else "user"
+    configuration.set_hypothesis_home_dir(
+        Path(tempfile.gettempdir()) / f"pytest-refines-{user}" / "hypothesis")
+    providers = pool = None
+    try:
+        from hypothesis.internal.conjecture import providers
+
+        pool = providers._get_local_constants
+        providers._get_local_constants = _no_constants
+        providers.CONSTANTS_CACHE.cache.clear()
+    except (ImportError, AttributeError):
+        providers = None
     try:
         yield
     finally:
         vars(configuration)[key] = before
+        if providers is not None:
+            providers._get_local_constants = pool
+            providers.CONSTANTS_CACHE.cache.clear()
+
+
+def _no_constants():
+    from hypothesis.internal.conjecture import providers
+
+    return providers.Constants()
 
 
 def test(ob: Obligation, undecided: Undecided, count: int = DEFAULT_EXAMPLES,
@@ -202,7 +242,7 @@ def test(ob: Obligation, undecided: Undecided, count: int = DEFAULT_EXAMPLES,
         if tester.example(inputs, origin) in ("fail", "stopped"):
             break
     if tester.failure is None and not tester.stopped:
-        tester.draw(plan, count)
+        _draw(tester, plan, count, undecided)
     if tester.spec_error is not None:
         result.verdict = ERROR
         result.reason = f"{ob.where(ob.relation.path, ob.line)}: the spec itself raises: " \
@@ -222,6 +262,30 @@ def test(ob: Obligation, undecided: Undecided, count: int = DEFAULT_EXAMPLES,
         result.notes.append(f"testing stopped early: {tester.stats.overran} runs took longer "
                             f"than {limit:g} s each")
     return result
+
+
+def _draw(tester: Tester, plan: examples.Plan, count: int, undecided: Undecided) -> None:
+    """Draw ``count`` examples: a first few, and the rest only if ``assuming``
+    lets most draws through. When it rejects nearly all (``n % 1000 == 0``),
+    drawing more would take seconds for a handful of examples: the solver,
+    which satisfies ``assuming`` by construction, is asked for more inputs
+    instead."""
+    first = min(PROBE_DRAWS, count)
+    before = (tester.stats.examples, tester.stats.rejected)
+    filtered = tester.draw(plan, first, first=True)
+    judged = tester.stats.examples - before[0]
+    rejected = tester.stats.rejected - before[1]
+    if tester.failure is not None or tester.stopped:
+        return
+    if filtered or rejected > REJECTED_SHARE * (judged + rejected):
+        tester.stats.narrow = True
+        if undecided.more is not None:
+            for inputs in undecided.more(count - judged):
+                if tester.example(inputs, "solver") in ("fail", "stopped"):
+                    return
+        return
+    if count > first:
+        tester.draw(plan, count - first, seed_offset=1)
 
 
 def _unknown(result: Result, why: str, untested: str) -> Result:

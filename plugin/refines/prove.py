@@ -173,6 +173,10 @@ def prove(ob: Obligation, timeout: float) -> Union[Result, Undecided]:
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         _record(result, exc, ob.path, ob.show, f"checking {ob.function}", ob.line)
         outcome = result
+    if isinstance(outcome, Undecided) and ob.params is not None and ob.assuming is not None:
+        # For a precondition that rejects nearly every drawn input, the tester
+        # asks for more inputs that satisfy it (a fresh solver each time).
+        outcome.more = lambda n: [i for _, i in allowed_inputs(ob, timeout, count=n)]
     if isinstance(outcome, Result):
         outcome.seconds = time.perf_counter() - start
     return outcome
@@ -379,8 +383,8 @@ SEED_SHARE = 0.2
 SEED_SECONDS = 2.0
 
 
-def allowed_inputs(ob: Obligation, seconds: float, spec: Optional[Spec] = None
-                   ) -> List[Tuple[str, dict]]:
+def allowed_inputs(ob: Obligation, seconds: float, spec: Optional[Spec] = None,
+                   count: int = SEEDS) -> List[Tuple[str, dict]]:
     """Diverse inputs that satisfy ``assuming``, from the solver: the tester
     starts from them, so a narrow precondition wastes no draws. Empty when
     there is no ``assuming`` or it cannot be translated."""
@@ -394,8 +398,8 @@ def allowed_inputs(ob: Obligation, seconds: float, spec: Optional[Spec] = None
         else:
             holds = spec.assuming.holds
         solver = Solver(Budget(min(SEED_SECONDS, seconds * SEED_SHARE)))
-        solver.per_query = solver.budget.seconds / (2 * SEEDS)
-        return [("assuming", i) for i in diverse(solver, ob.params, [holds], SEEDS)]
+        solver.per_query = solver.budget.seconds / (2 * count)
+        return [("assuming", i) for i in diverse(solver, ob.params, [holds], count)]
     except Exception:  # noqa: BLE001 -- seeds are an aid; testing goes on without them
         return []
 

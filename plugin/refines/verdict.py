@@ -6,7 +6,7 @@ Stages return these; ``report`` alone turns them into text and JSON.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Dict, List, Optional, Tuple
+from typing import Any, Callable, Dict, List, Optional, Tuple
 
 PROVED = "proved"
 REFUTED = "refuted"
@@ -46,6 +46,7 @@ class Testing:
     rejected: int = 0  # drawn inputs outside `assuming`, not judged
     overran: int = 0  # runs stopped by the watchdog, not judged
     skipped: int = 0  # inputs not run: as large as one whose run was stopped
+    narrow: bool = False  # assuming rejected nearly every draw: drawing stopped early
     seed: int = 0  # the random seed (the run is deterministic)
 
     def to_json(self) -> dict:
@@ -65,6 +66,9 @@ class Testing:
             extra.append(f"{self.overran} runs were stopped after the per-run time limit")
         if self.skipped:
             extra.append(f"{self.skipped} inputs at least as large as those were not run")
+        if self.narrow:
+            extra.append("assuming rejected nearly every drawn input, so the solver's "
+                         "inputs were run instead of more draws")
         return text + ("; " + "; ".join(extra) if extra else "")
 
 
@@ -79,6 +83,9 @@ class Undecided:
     message_key: Optional[str] = None
     seeds: List[Tuple[str, Dict[str, Any]]] = field(default_factory=list)  # (origin, inputs)
     notes: List[str] = field(default_factory=list)
+    # More inputs that satisfy `assuming`, from the solver (n -> up to n of them),
+    # when it can produce them; a narrow precondition asks for them.
+    more: Optional[Callable[[int], List[Dict[str, Any]]]] = None
 
 
 @dataclass

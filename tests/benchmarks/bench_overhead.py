@@ -2,7 +2,7 @@
 
 For each case below this measures
 
-* the full check, ``refines.prove.check_function``: reading the source with
+* the full check, ``refines.check.check_function``: reading the source with
   astroid, translating, solving, replaying, the exact precondition. "warm" is
   the usual case in a session (the module is parsed once per file and shared
   by its obligations); "cold" clears the parse cache first, so the whole
@@ -38,6 +38,7 @@ from typing import Callable, Dict, Iterator, List, Optional, Sequence, Tuple
 import z3
 
 import refines.precondition
+import refines.check
 import refines.prove
 import refines.replay
 import refines.source
@@ -132,7 +133,7 @@ def run_check(fn, path: str, module: str, cold: bool = False):
     if cold:
         clear_parse_cache()
     start = time.perf_counter()
-    result = refines.prove.check_function(fn, 0, path, module, TIMEOUT)
+    result = refines.check.check_function(fn, 0, path, module, TIMEOUT)
     return time.perf_counter() - start, result
 
 
@@ -263,7 +264,7 @@ class Instrumented:
         self.reset()
         if cold:
             clear_parse_cache()
-        outer = self._wrap("other", refines.prove.check_function)
+        outer = self._wrap("other", refines.check.check_function)
         start = time.perf_counter()
         result = outer(fn, 0, path, module, timeout)
         seconds = time.perf_counter() - start

@@ -40,6 +40,7 @@ from typing import Dict, List, Optional, Sequence, Tuple
 
 import z3
 
+import refines.check
 import refines.prove
 import refines.solve as solve
 from bench_overhead import Instrumented, load_source, patched
@@ -234,7 +235,7 @@ class Runs:
 def check_with(strategy: solve.Strategy, fn, path: str, module: str, budget: float):
     with patched(solve, "DEFAULT", lambda _: strategy):
         start = time.perf_counter()
-        result = refines.prove.check_function(fn, 0, path, module, budget)
+        result = refines.check.check_function(fn, 0, path, module, budget)
         return result, time.perf_counter() - start
 
 

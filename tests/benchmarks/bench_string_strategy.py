@@ -29,6 +29,7 @@ from typing import Dict, List, Optional, Sequence
 import z3
 
 import refines.lower
+import refines.check
 import refines.prove
 from refines import strmath
 
@@ -132,7 +133,7 @@ def load(folder: Path):
 
 def once(module, path: str, name: str, budget: float):
     start = time.perf_counter()
-    r = refines.prove.check_function(getattr(module, name), 0, path, module.__name__, budget)
+    r = refines.check.check_function(getattr(module, name), 0, path, module.__name__, budget)
     return r.verdict, time.perf_counter() - start, r.exact_precondition
 
 
