@@ -32,7 +32,7 @@ from semantics_helpers import (SMALL, STRS, admits, check_agrees, check_sound, g
 
 WIDE = (-(2 ** 70), -9, -8, -7, -1, 0, 1, 2, 3, 7, 8, 255, 2 ** 70)
 LISTS = ([], [0], [3, 1], [2, 2, -5], [-1, 4, 4, 0])  # never run on these: copy them
-TEXTS = STRS + (" a b ", "a,b,,c", "x\ny\n", "ABC", "12", "ß", "\t")
+TEXTS = STRS + (" a b ", "a,b,,c", "x\ny\n", "AB1", "\t", "\u00df")
 
 
 def runs(t, inputs):
@@ -298,7 +298,7 @@ def test_str_methods_admit_what_python_does(call):
         r = {call}
         return r if not isinstance(r, list) else (r, len(r))
     """
-    inputs = grid(TEXTS, ("", "a", ",", " "), (-1, 0, 1, 2), (None, ","))
+    inputs = grid(TEXTS, ("", "a", ","), (-1, 0, 2), (None, ","))
     t = check_sound(source, inputs)
     if "split(t" in call or "partition" in call:
         assert raising(t, inputs, ValueError)  # an empty separator
@@ -571,7 +571,7 @@ def check_argument_calls(calls):
 
 @pytest.mark.parametrize("owner", ["s", "xs"])
 def test_arguments_of_every_kind(owner):
-    check_argument_calls(argument_calls(owner, 2, seed=1))
+    check_argument_calls(argument_calls(owner, 1, seed=1))
 
 
 @pytest.mark.slow
