@@ -160,6 +160,30 @@ def test_constructing_and_calling_methods_of_objects():
     assert "the call `w.pay(n)` (line 17)" in t.behaviour.untranslated
 
 
+def test_a_call_may_rebind_a_module_constant():
+    # A fresh module for each input: the runs rebind its globals.
+    for n in SMALL:
+        check_sound(REBINDING, [(n,)])
+
+
+REBINDING = """
+    VISITS = 0
+    LABEL = "gym"
+
+    def count(n: int) -> None:
+        global VISITS, LABEL
+        VISITS += n
+        if n > 1:
+            LABEL = LABEL.upper()
+
+    def f(n: int):
+        before = VISITS
+        if n > 0:
+            count(n)
+        return before, VISITS, LABEL
+    """
+
+
 def test_arguments_are_evaluated_before_the_call_and_can_raise():
     t = check_sound("""
     def note(x: int) -> int:

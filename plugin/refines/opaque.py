@@ -40,7 +40,7 @@ from astroid import nodes
 
 from refines import heap, ir
 from refines.errors import Untranslatable
-from refines.values import MaybeUnbound, fresh_int
+from refines.values import MaybeUnbound, fresh_int, fresh_like
 
 # Shapes a return annotation can name: ("int",), ("bool",), ("float",),
 # ("str",), ("none",), ("opt", scalar), ("tuple", (shapes...)), ("list", kind),
@@ -161,6 +161,19 @@ class Opaque:
                 keys.update(heap.field_key(kind, a) for a in heap.KINDS[kind].fields)
         return keys
 
+    def after_calls(self, name: str, value: ir.Value) -> ir.Value:
+        """A module constant read after an untranslated call, which may have
+        rebound it (``global`` in the callee): a fresh value of its type,
+        the same for every read until the next call. Calls are translated in
+        one pass over the body, so this also covers paths where no call ran,
+        and reads in a loop whose body calls: sound, if less precise. (A
+        constant rebound to a value of another type is not considered.)"""
+        if self.rebound is None or not isinstance(value, ir.Term):
+            return value
+        if name not in self.rebound:
+            self.rebound[name] = fresh_like(value)
+        return self.rebound[name]
+
     def havoc(self, keys: Iterable[str]) -> None:
         """Forget what the fields hold: each becomes a fresh array."""
         for key in sorted(keys):
@@ -234,6 +247,7 @@ class Opaque:
                              f"`{text}` {MAY_RAISE}")
         extra = [a for a in args] + ([shape[1]] if shape and shape[0] in ("list", "obj") else [])
         self.havoc(self.fields_in_play(extra))
+        self.rebound = {}  # module constants read from now on may have been rebound
         if discarded:
             return ir.NONE  # never read
         if new_object is None:

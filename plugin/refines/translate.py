@@ -176,6 +176,9 @@ class Translator(Calls, Heap, Comparisons, Strings, Methods, Opaque, Loops):
         self.cuts = 0
         self.loops: list = []  # the loops being translated, innermost last
         self.param_kinds: set = set()  # kinds of list and object parameters
+        # Module constants as an untranslated call may have rebound them (None
+        # until a call is translated): see ``Opaque.after_calls``.
+        self.rebound: Optional[dict] = None
 
     # ------------------------------------------------------------ outcomes
 
@@ -421,7 +424,7 @@ class Translator(Calls, Heap, Comparisons, Strings, Methods, Opaque, Loops):
             self.raise_when(ir.TRUE, UnboundLocalError, line,
                             f"`{name}` is read before it is assigned")
             return ir.NONE
-        return self.scope.global_value(name, line)
+        return self.after_calls(name, self.scope.global_value(name, line))
 
     def truth(self, v: ir.Value) -> ir.Term:
         """Python's truth value of ``v``; a list is true when not empty, an
@@ -445,7 +448,8 @@ class Translator(Calls, Heap, Comparisons, Strings, Methods, Opaque, Loops):
         if self.scope.is_namespace(node.expr):
             value = self.scope.resolve(node)  # math.pi, a class constant
             if isinstance(value, (bool, int, float, str)) or value is None:
-                return self.scope.constant(value, node.lineno)
+                return self.after_calls(node.as_string(),
+                                        self.scope.constant(value, node.lineno))
             return self.refuse("expression", node.lineno,
                                {"construct": "attribute access " + node.as_string()})
         obj = self.expr(node.expr)
