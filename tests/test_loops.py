@@ -145,6 +145,20 @@ def test_unpacking_items_of_different_shapes_is_refused():
     assert (info.value.key, info.value.line) == ("mixed", line_of(source, "for a, b"))
 
 
+def test_a_tuple_that_grows_in_a_loop_is_refused_where_read():
+    # Its shape differs from one iteration to the next (a tuple of 0, 1, ... items).
+    source = """
+    def f(xs: list[int]) -> int:
+        t = ()
+        for x in xs:
+            t = t + (x,)
+        return len(xs)
+    """
+    with pytest.raises(Untranslatable) as info:
+        translated(source)
+    assert (info.value.key, info.value.line) == ("mixed", line_of(source, "t = t +"))
+
+
 def test_unpacking_a_str_or_a_list():
     # 7.2 Assignment statements: an iterable of exactly as many items.
     t = check_sound("""
