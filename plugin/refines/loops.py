@@ -128,8 +128,16 @@ class Loops:
         # One arbitrary iteration, from a state of the shapes found.
         self.env, self.heap = self.havoc_state(before_env, before_heap, names, shapes, writes)
         self.live = ir.conj(before_live, ir.opaque(ir.BOOL))  # `enter`
+        start_heap = self.heap
         frame = self.iterate(node, kind, iteration, writes)
         breaks = breaks or frame.jumped_out
+        ends = [h for _, h in frame.breaks + frame.continues] + (
+            [] if ir.is_false(self.live) else [self.heap])
+        if any(start_heap.get(k) is not v and k not in writes for h in ends for k, v in h.items()):
+            # The sandbox runs a superset of these paths, so this cannot happen;
+            # if it did, the item's facts would rest on a list the loop changes.
+            raise RuntimeError(f"the loop at line {node.lineno} writes a field its "
+                               f"sandbox did not see")
 
         # After the loop: where no outcome of the body happened.
         guards = [o.guard for o in self.outcomes[start:]]

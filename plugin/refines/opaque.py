@@ -245,15 +245,15 @@ class Opaque:
         self.untranslated_part(f"the call `{text}` (line {node.lineno})")
         self.unmodelled_when(ir.opaque(ir.BOOL), node.lineno,
                              f"`{text}` {MAY_RAISE}")
-        extra = [a for a in args] + ([shape[1]] if shape and shape[0] in ("list", "obj") else [])
+        extra = list(args) + ([shape[1]] if shape and shape[0] in ("list", "obj") else [])
         self.havoc(self.fields_in_play(extra))
         self.rebound = {}  # module constants read from now on may have been rebound
         if discarded:
             return ir.NONE  # never read
         if new_object is None:
-            note = ""
-            if shape[0] == "float" or "float" in repr(shape):
-                note = "; an int, which a float hint also admits, is not considered"
+            # PEP 484's numeric tower: a float hint admits an int too.
+            note = ("; an int, which a float hint also admits, is not considered"
+                    if "float" in repr(shape) else "")
             self.assume(f"`{getattr(fn, '__qualname__', text)}` returns what its annotation "
                         f"says (`{annotation}`){note}")
         return self.opaque_value(shape, new_object=new_object is not None
