@@ -456,3 +456,46 @@ def full(booked: int) -> bool:
         "*tested, not proved, because: not translated: `try` statements*",
         "refuted: specs.py::full -- found by testing",
     ])
+
+
+def test_loops_end_to_end_tested_refuted_and_proved_through(pytester):
+    # A loop with a true spec is tested; a loop bug is refuted by testing with a
+    # regression test; an untranslated part that does not matter is proved,
+    # and the summary names the part.
+    pytester.makepyfile(loops='''
+from refines import refines
+
+@refines(lambda holds, result: 0 <= result <= len(holds))
+def jugs(holds: list[str]) -> int:
+    n = 0
+    for h in holds:
+        if h.startswith("J"):
+            n += 1
+    return n
+
+RESERVED_LANES = 3
+
+@refines(lambda lanes, result: result == max(lanes - RESERVED_LANES, 0),
+         assuming=lambda lanes: lanes >= 0)
+def open_lanes(lanes: int) -> int:
+    free = 0
+    while lanes > RESERVED_LANES + 1:
+        lanes -= 1
+        free += 1
+    return free
+
+@refines(lambda name, result: result.startswith("CRUX-"))
+def tag(name: str) -> str:
+    return "CRUX-" + name.strip().upper()
+''')
+    result = pytester.runpytest("--refines-path", "loops.py", "-v", "-p", "no:cacheprovider")
+    result.assert_outcomes(passed=2, failed=1)
+    result.stdout.fnmatch_lines_random([
+        "*loops.py::jugs TESTED (not proved)*",
+        "*loops.py::open_lanes REFUTED*",
+        "*loops.py::tag PROVED*",
+        "*counterexample (found by testing, confirmed by running the function):",
+        "*open_lanes(lanes=*)",
+        "*def test_open_lanes_counterexample():",
+        "proved, untranslated: proved whatever these parts do: *`name.strip()`*: loops.py::tag",
+    ])
