@@ -30,11 +30,10 @@ from pathlib import Path
 from typing import Any, Dict, List, Optional, Tuple
 
 from refines import examples, replay
-from refines.regression import regression_test
+from refines.regression import refute
 from refines.plugin import DEFAULT_EXAMPLES
 from refines.source import Obligation
-from refines.verdict import (ERROR, REFUTED, TESTED, UNKNOWN, Counterexample, Result, Testing,
-                             Undecided)
+from refines.verdict import ERROR, TESTED, UNKNOWN, Result, Testing, Undecided
 
 # Seconds one run (the call and the judging of it) may take before the
 # watchdog stops it; runs stopped count as neither passing nor failing.
@@ -344,23 +343,9 @@ def _key(inputs: Dict[str, Any]) -> str:
 
 def _refuted(ob: Obligation, result: Result, tester: Tester, limit) -> Result:
     failure = tester.failure
-    pre = failure.pre
-    result.verdict = REFUTED
     result.reason = None
     result.hint = None
-    alias = replay.shared(ob, pre)
-    if alias:
-        result.notes.append("aliasing: " + "; ".join(
-            f"`{a}` is the same object as `{b}`" for a, b in alias.items())
-            + " -- the counterexample needs it, and a repr cannot show it")
-    run, judgement = failure.run, failure.judgement
-    result.counterexample = Counterexample(
-        inputs={k: replay.shown(v) for k, v in pre.items()},
-        call=replay.call_text(ob, pre), outcome=run.outcome, confirmed=True,
-        violated=judgement.violated, violated_at=judgement.violated_at,
-        detail=judgement.detail or (str(run.raised) if run.raised else ""),
-        found_by="testing",
-        regression_test=regression_test(ob, copy.deepcopy(pre), limit))
+    refute(result, ob, failure.pre, failure.run, failure.judgement, "testing", limit)
     result.precondition_note = ("not computed: this counterexample was found by testing, "
                                 "not by the solver")
     return result

@@ -100,27 +100,24 @@ def _arg_path(config: pytest.Config, arg: str) -> Optional[Path]:
 
 
 def timeout_of(config: pytest.Config) -> float:
-    value = config.getoption("refines_timeout")
-    if value is None:
-        try:
-            value = float(config.getini("refines_timeout"))
-        except ValueError:
-            raise pytest.UsageError(
-                f"refines_timeout in {config.inipath}: expected seconds as a number, "
-                f"got {config.getini('refines_timeout')!r}") from None
-    return float(value)
+    return _setting(config, "refines_timeout", float, "seconds as a number")
 
 
 def examples_of(config: pytest.Config) -> int:
-    value = config.getoption("refines_examples")
+    return _setting(config, "refines_examples", int, "a whole number")
+
+
+def _setting(config: pytest.Config, name: str, convert, expected: str):
+    """A value from the command line, else from the ini file (as ``convert``)."""
+    value = config.getoption(name)
     if value is None:
         try:
-            value = int(config.getini("refines_examples"))
+            value = convert(config.getini(name))
         except ValueError:
             raise pytest.UsageError(
-                f"refines_examples in {config.inipath}: expected a whole number, "
-                f"got {config.getini('refines_examples')!r}") from None
-    return int(value)
+                f"{name} in {config.inipath}: expected {expected}, "
+                f"got {config.getini(name)!r}") from None
+    return convert(value)
 
 
 def pytest_collect_file(file_path: Path, parent: pytest.Collector):

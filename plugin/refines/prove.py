@@ -23,10 +23,10 @@ from refines import fpmath, heap, ir, precondition, replay, solve, strmath
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering, read_int
 from refines.obligation import Spec, translate_spec_for, violations
-from refines.regression import regression_test
+from refines.regression import refute
 from refines.source import Obligation
 from refines.translate import Scope, translate_body
-from refines.verdict import ERROR, PROVED, REFUTED, UNKNOWN, Counterexample, Result, Undecided
+from refines.verdict import ERROR, PROVED, UNKNOWN, Result, Undecided
 
 # The budget is counted in z3 resource units, not seconds: unlike a
 # wall-clock timeout, a resource limit gives the same verdict however loaded
@@ -256,7 +256,6 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
     inputs = solver.inputs(model, ob.params)
     predicted = _predicted(solver, model, behaviour)
     call = replay.call_text(ob, inputs)
-    shown = {k: replay.shown(v) for k, v in inputs.items()}
     pre = replay.before(inputs)
     try:
         with replay.watchdog(RUN_LIMIT):
@@ -289,17 +288,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
                        "expected (the translation models asserts as enabled); "
                        "otherwise please report it as a bug in pytest-refines")
         return result
-    result.verdict = REFUTED
-    alias = replay.shared(ob, pre)
-    if alias:
-        result.notes.append("aliasing: " + "; ".join(
-            f"`{a}` is the same object as `{b}`" for a, b in alias.items())
-            + " -- the counterexample needs it, and a repr cannot show it")
-    result.counterexample = Counterexample(
-        inputs=shown, call=call, outcome=actual.outcome, confirmed=True,
-        violated=judgement.violated, violated_at=judgement.violated_at,
-        detail=judgement.detail or (str(actual.raised) if actual.raised else ""),
-        regression_test=regression_test(ob, replay.before(pre), RUN_LIMIT))
+    refute(result, ob, pre, actual, judgement, "solver", RUN_LIMIT)
 
     if untranslated:
         result.precondition_note = ("not computed: the exact precondition would range over "

@@ -18,6 +18,27 @@ from typing import Any, Dict, List, Optional
 
 from refines import replay
 from refines.source import Obligation
+from refines.verdict import REFUTED, Counterexample, Result
+
+
+def refute(result: Result, ob: Obligation, pre: Dict[str, Any], run: replay.Run,
+           judgement: replay.Judgement, found_by: str, limit: Optional[float]) -> Result:
+    """Make ``result`` the refutation by this run: the counterexample as the
+    report shows it (``pre``: the inputs before the call), the aliasing it
+    needs, and the regression test."""
+    result.verdict = REFUTED
+    alias = replay.shared(ob, pre)
+    if alias:
+        result.notes.append("aliasing: " + "; ".join(
+            f"`{a}` is the same object as `{b}`" for a, b in alias.items())
+            + " -- the counterexample needs it, and a repr cannot show it")
+    result.counterexample = Counterexample(
+        inputs={k: replay.shown(v) for k, v in pre.items()},
+        call=replay.call_text(ob, pre), outcome=run.outcome, confirmed=True,
+        violated=judgement.violated, violated_at=judgement.violated_at,
+        detail=judgement.detail or (str(run.raised) if run.raised else ""),
+        found_by=found_by, regression_test=regression_test(ob, replay.before(pre), limit))
+    return result
 
 
 class _CannotWrite(Exception):
