@@ -58,7 +58,7 @@ import z3
 from refines import fpmath, heap, ir, strmath
 from refines.lower import Lowering
 from refines.opaque import MAY_RAISE
-from refines.source import find_function, read_params
+from refines.source import find_function, read_params, runtime_params
 from refines.translate import Scope, translate_body
 
 # ("returned", value) or ("raised", exception class); predictions may also be
@@ -761,7 +761,8 @@ def translated(source: str, name: str = "f", directory: Optional[str] = None) ->
     module, path = load_module(source, directory)
     fn = getattr(module, name)
     fn_node, _ = find_function(fn, path)
-    params, _ = read_params(fn_node, fn.__globals__)
+    names, _, hints, _ = runtime_params(fn)
+    params, _ = read_params(fn_node, fn.__globals__, dict(zip(names, hints)))
     scope = Scope(fn.__globals__, list(fn_node.locals))
     behaviour = translate_body(fn_node, params, scope)
     return Translated(fn, behaviour, path, Evaluator(behaviour))

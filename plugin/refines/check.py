@@ -59,10 +59,7 @@ def check_attached(att, globals_: dict, timeout: float, show: Callable[[str], st
     """Check a spec attached with ``attach`` (``globals_``: the attaching module's)."""
     from refines.source import read_attached
 
-    target = att.target
-    name = getattr(target, "__qualname__", None) or getattr(target, "__name__", repr(target))
-    module = getattr(target, "__module__", None) or "builtins"
-    base = Result(verdict=ERROR, function=f"{module}.{name}", path=show(att.path), line=att.line)
+    base = Result(verdict=ERROR, function=att.function, path=show(att.path), line=att.line)
     return _read_then_check(lambda: read_attached(att, globals_, show), base, att.path, show,
                             timeout, examples)
 

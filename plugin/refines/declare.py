@@ -94,6 +94,23 @@ class Attached:
     line: int  # the line of that call
     hints: Mapping[str, Any] = field(default_factory=dict)
 
+    @property
+    def qualname(self) -> str:
+        t = self.target
+        return getattr(t, "__qualname__", None) or getattr(t, "__name__", None) or repr(t)
+
+    @property
+    def module(self) -> str:
+        """The target's module; a method of a builtin type has it on its class."""
+        t = self.target
+        return (getattr(t, "__module__", None)
+                or getattr(getattr(t, "__objclass__", None), "__module__", None) or "builtins")
+
+    @property
+    def function(self) -> str:
+        """``<module>.<qualname>``, as reports and node ids name the target."""
+        return f"{self.module}.{self.qualname}"
+
 
 def attach(
     func: Callable[..., Any],

@@ -16,7 +16,6 @@ import ast
 import dataclasses
 import inspect
 import math
-import textwrap
 import typing
 from dataclasses import dataclass, field
 from typing import Any, Dict, List, Optional, Tuple
@@ -425,61 +424,64 @@ def constants(ob: Obligation) -> Constants:
     parts = [p for p in (ob.relation, ob.assuming) if p is not None]
     parts += [p for _, p in ob.raises]
     for part in parts:
-        for n in part.body.nodes_of_class((nodes.Const, nodes.Name, nodes.BinOp,
-                                           nodes.UnaryOp)):
-            if isinstance(n, nodes.Const):
-                add(n.value)
-            elif isinstance(n, nodes.Name):
-                if n.name not in part.params:
-                    add(part.globals.get(n.name))
-            else:  # a constant worked out from others: `2 * WEEK_DAYS`
-                try:
-                    add(_constant(n, part, set(part.params)))
-                except Exception:  # noqa: BLE001 -- it mentions a parameter, or fails
-                    pass
-    for value in _body_constants(ob):
-        add(value)
+        for value in _node_constants(part.body, part.globals, set(part.params)):
+            add(value)
+    body = _body(ob)
+    if body is not None:
+        fn = inspect.unwrap(ob.fn)
+        for value in _node_constants(body, getattr(fn, "__globals__", {}), set(ob.names)):
+            add(value)
     return out
 
 
-def _body_constants(ob: Obligation) -> List[Any]:
-    """Constants in the function's body, read with ``ast`` from its source
-    when it has one (a builtin has none)."""
+def _body(ob: Obligation) -> Optional[nodes.NodeNG]:
+    """The function's ``def``, read from its source file (parsed once, as for
+    the proof) when it has one; a builtin has none."""
+    if ob.fn_node is not None:
+        return ob.fn_node
+    from refines.source import find_function
+
     fn = inspect.unwrap(ob.fn)
     try:
-        tree = ast.parse(textwrap.dedent(inspect.getsource(fn)))
-    except (OSError, TypeError, SyntaxError, IndentationError):
-        return []
-    globals_ = getattr(fn, "__globals__", {})
+        return find_function(fn, inspect.getsourcefile(fn))[0]
+    except Exception:  # noqa: BLE001 -- no source to read constants from
+        return None
+
+
+def _node_constants(node: nodes.NodeNG, globals_: dict, params: set) -> List[Any]:
+    """The constants written under ``node``: literals, module-level names by
+    their value, and constant expressions (`-1`, `2 * WEEK_DAYS`) worked out."""
     out = []
-    for n in ast.walk(tree):
-        if isinstance(n, ast.Constant):
+    for n in node.nodes_of_class((nodes.Const, nodes.Name, nodes.BinOp, nodes.UnaryOp)):
+        if isinstance(n, nodes.Const):
             out.append(n.value)
-        elif isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load) and n.id in globals_:
-            out.append(globals_[n.id])
-        elif isinstance(n, (ast.BinOp, ast.UnaryOp)) and _foldable(n, globals_):
-            try:  # a constant worked out from others: `-1`, `2 * WEEK_DAYS`
-                out.append(eval(compile(ast.Expression(n), "<constant>", "eval"),  # noqa: S307
+        elif isinstance(n, nodes.Name):
+            if n.name not in params and n.name in globals_:
+                out.append(globals_[n.name])
+        elif _foldable(n, globals_, params):
+            try:
+                out.append(eval(compile(n.as_string(), "<constant>", "eval"),  # noqa: S307
                                 dict(globals_)))
             except Exception:  # noqa: BLE001 -- e.g. a division by zero: not a constant
                 pass
     return out
 
 
-def _foldable(node: ast.AST, globals_: dict) -> bool:
+def _foldable(node: nodes.NodeNG, globals_: dict, params: set) -> bool:
     """Only numbers, module-level numbers and arithmetic: nothing that runs code."""
-    for n in ast.walk(node):
-        if isinstance(n, ast.Name):
-            if not isinstance(globals_.get(n.id), (int, float)) or isinstance(
-                    globals_.get(n.id), bool):
+    for n in [node, *node.nodes_of_class(nodes.NodeNG)]:
+        if isinstance(n, nodes.Name):
+            value = globals_.get(n.name)
+            if n.name in params or not isinstance(value, (int, float)) or isinstance(value, bool):
                 return False
-        elif not isinstance(n, (ast.BinOp, ast.UnaryOp, ast.Constant, ast.operator,
-                                ast.unaryop, ast.Load)):
+        elif isinstance(n, nodes.Const):
+            if not isinstance(n.value, (int, float)) or isinstance(n.value, bool):
+                return False
+        elif isinstance(n, nodes.BinOp):
+            if n.op == "**":
+                return False  # 10 ** 10 ** 10 would take forever
+        elif not isinstance(n, nodes.UnaryOp):
             return False
-        elif isinstance(n, ast.Constant) and not isinstance(n.value, (int, float)):
-            return False
-        elif isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow):
-            return False  # 10 ** 10 ** 10 would take forever
     return True
 
 

@@ -226,8 +226,7 @@ def test(ob: Obligation, undecided: Undecided, count: int = DEFAULT_EXAMPLES,
     """The verdict of testing ``ob`` on about ``count`` drawn examples (plus
     the solver's inputs and the boundary values), given why no proof came out."""
     result = Result(verdict=TESTED, function=ob.function, path=ob.show(ob.path), line=ob.line,
-                    hint=undecided.hint, message_key=undecided.message_key,
-                    notes=list(undecided.notes))
+                    hint=undecided.hint, message_key=undecided.message_key)
     why = undecided.reason
     if ob.untestable:
         return _unknown(result, why, f"it cannot be called with drawn arguments: {ob.untestable}")

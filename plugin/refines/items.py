@@ -54,14 +54,6 @@ def attached_specs(module) -> list:
     return list(vars(module).get(ATTACHED_ATTRIBUTE, ()))
 
 
-def attached_name(target: Callable) -> str:
-    """``<module>.<qualname>`` of an attached target (``calendar.isleap``)."""
-    qualname = getattr(target, "__qualname__", None) or getattr(target, "__name__", repr(target))
-    module = getattr(target, "__module__", None) or getattr(
-        getattr(target, "__objclass__", None), "__module__", None) or "builtins"
-    return f"{module}.{qualname}"
-
-
 @contextlib.contextmanager
 def _without_assert_rewriting():
     """Import spec modules as Python does. pytest rewrites the asserts of test
@@ -111,7 +103,7 @@ class RefinesFile(pytest.File):
         # Specs this file attaches to functions defined elsewhere (attach(...)).
         seen: dict = {}
         for att in attached_specs(module):
-            base = attached_name(att.target)
+            base = att.function
             seen[base] = seen.get(base, 0) + 1
             name = base if seen[base] == 1 else f"{base}[{seen[base]}]"
             yield RefinesItem.from_parent(self, name=name, fn=att.target, index=0,

@@ -22,7 +22,7 @@ import z3
 from refines import fpmath, heap, ir, precondition, replay, solve, strmath
 from refines.errors import SpecError, Untranslatable, format_message
 from refines.lower import Lowering, read_int
-from refines.obligation import Spec, translate_spec_for, violations
+from refines.obligation import Spec, translate_assuming, translate_spec_for, violations
 from refines.regression import refute
 from refines.source import Obligation
 from refines.translate import Scope, translate_body
@@ -168,14 +168,15 @@ def prove(ob: Obligation, timeout: float) -> Union[Result, Undecided]:
     except Untranslatable as exc:
         outcome = Undecided(
             reason=f"not translated: {exc.text} ({ob.where(exc.path or ob.path, exc.line)})",
-            hint=exc.hint, message_key=exc.key,
-            seeds=allowed_inputs(ob, timeout) if ob.params is not None else [])
+            hint=exc.hint, message_key=exc.key)
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         _record(result, exc, ob.path, ob.show, f"checking {ob.function}", ob.line)
         outcome = result
     if isinstance(outcome, Undecided) and ob.params is not None and ob.assuming is not None:
-        # For a precondition that rejects nearly every drawn input, the tester
-        # asks for more inputs that satisfy it (a fresh solver each time).
+        # The tester starts from inputs that satisfy assuming, after any the
+        # solver found on the way; for a precondition that rejects nearly every
+        # drawn input it asks for more (a fresh solver each time).
+        outcome.seeds += allowed_inputs(ob, timeout)
         outcome.more = lambda n: [i for _, i in allowed_inputs(ob, timeout, count=n)]
     if isinstance(outcome, Result):
         outcome.seconds = time.perf_counter() - start
@@ -231,8 +232,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         if gap is not None:
             reason, seeds = gap
             return Undecided(reason, "exclude those inputs with assuming=, or leave them "
-                                     "to testing", None, seeds + allowed_inputs(ob, budget.seconds, spec),
-                             notes=list(result.notes))
+                                     "to testing", None, seeds)
         result.verdict = PROVED
         # What the proof takes for granted beyond the modelled semantics.
         result.notes.extend("assumed: " + a for a in behaviour.assumptions)
@@ -250,8 +250,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         else:
             reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
             hint = "raise --refines-timeout, or split the function"
-        return Undecided(reason, hint, None, allowed_inputs(ob, budget.seconds, spec),
-                         notes=list(result.notes))
+        return Undecided(reason, hint)
 
     inputs = solver.inputs(model, ob.params)
     predicted = _predicted(solver, model, behaviour)
@@ -262,9 +261,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
             actual = replay.run(ob, inputs)
     except replay.Overrun:
         return Undecided(f"the solver's counterexample {call} did not finish within "
-                         f"{RUN_LIMIT:g} s when run", None, None,
-                         [("solver", pre)] + allowed_inputs(ob, budget.seconds, spec),
-                         notes=list(result.notes))
+                         f"{RUN_LIMIT:g} s when run", seeds=[("solver", pre)])
     judgement = replay.judge(ob, inputs, actual, pre)
     if (judgement.holds or not replay.assuming_holds(ob, pre)) and untranslated:
         # The solver chose what the untranslated parts do; the real parts did
@@ -275,8 +272,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         return Undecided(
             f"the solver's counterexample {call} depends on what untranslated parts "
             f"do ({'; '.join(untranslated)}), and the real call {actual.describe()}, "
-            "which meets the spec", None, None,
-            seeds + allowed_inputs(ob, budget.seconds, spec), notes=list(result.notes))
+            "which meets the spec", seeds=seeds)
     if judgement.holds or not replay.assuming_holds(ob, pre):
         result.verdict = ERROR
         result.reason = (
@@ -372,20 +368,15 @@ SEED_SHARE = 0.2
 SEED_SECONDS = 2.0
 
 
-def allowed_inputs(ob: Obligation, seconds: float, spec: Optional[Spec] = None,
-                   count: int = SEEDS) -> List[Tuple[str, dict]]:
+def allowed_inputs(ob: Obligation, seconds: float, count: int = SEEDS
+                   ) -> List[Tuple[str, dict]]:
     """Diverse inputs that satisfy ``assuming``, from the solver: the tester
     starts from them, so a narrow precondition wastes no draws. Empty when
     there is no ``assuming`` or it cannot be translated."""
     if ob.assuming is None or ob.params is None:
         return []
     try:
-        if spec is None:
-            from refines.obligation import translate_assuming
-
-            holds = translate_assuming(ob)
-        else:
-            holds = spec.assuming.holds
+        holds = translate_assuming(ob)
         solver = Solver(Budget(min(SEED_SECONDS, seconds * SEED_SHARE)))
         solver.per_query = solver.budget.seconds / (2 * count)
         return [("assuming", i) for i in diverse(solver, ob.params, [holds], count)]

@@ -19,7 +19,7 @@ import astroid
 from astroid import nodes
 
 from refines import heap, ir
-from refines.declare import SPECS_ATTRIBUTE, Spec, refines
+from refines.declare import SPECS_ATTRIBUTE, Spec, attach, refines
 from refines.errors import SpecError, Untranslatable
 
 _SORTS = {int: ir.INT, bool: ir.BOOL, float: ir.FLOAT, str: ir.STR}
@@ -181,7 +181,7 @@ def read_obligation(fn: Callable, index: int, path: str, module: str,
                                  {"qualname": fn.__qualname__})
         if isinstance(fn_node, nodes.AsyncFunctionDef):
             raise Untranslatable("async", fn_node.lineno, {"qualname": fn.__qualname__})
-        params, _ = read_params(fn_node, globals_)
+        params, _ = read_params(fn_node, globals_, dict(zip(names, hints)))
     except Untranslatable as exc:
         untranslated = exc
     return Obligation(
@@ -197,14 +197,11 @@ def read_attached(att, globals_: dict, show: Callable[[str], str] = str) -> Obli
     """The obligation of a spec attached with ``attach`` (``refines.declare.Attached``):
     the spec from the ``attach(...)`` call in the attaching file, the function
     from wherever it is defined. ``globals_`` are the attaching module's."""
-    target = att.target
-    qualname = getattr(target, "__qualname__", None) or getattr(target, "__name__", repr(target))
-    module = getattr(target, "__module__", None) or getattr(
-        getattr(target, "__objclass__", None), "__module__", None) or "builtins"
+    target, qualname, module = att.target, att.qualname, att.module
     tree, lines = parse_file(att.path)
     calls = [c for c in tree.nodes_of_class(nodes.Call)
              if c.lineno <= att.line <= (c.end_lineno or c.lineno)
-             and _resolves_to(c.func, globals_, _attach_function())]
+             and _resolves_to(c.func, globals_, attach)]
     calls.sort(key=lambda c: (c.lineno != att.line, c.lineno))
     if not calls:
         raise SpecError("spec-form", att.line, {"role": "attached spec"}, path=att.path)
@@ -252,12 +249,6 @@ def read_attached(att, globals_: dict, show: Callable[[str], str] = str) -> Obli
         is_async=inspect.iscoroutinefunction(target))
 
 
-def _attach_function():
-    from refines.declare import attach
-
-    return attach
-
-
 def _owner_class(target: Callable, module: str, qualname: str) -> Optional[type]:
     """The class ``target`` is a plain method of (its first parameter is an
     instance of it), if it is one."""
@@ -295,7 +286,7 @@ def params_from_hints(names: Tuple[str, ...], hints: Tuple[object, ...], fn_node
 
 def runtime_sort(hint: object):
     """``(sort, optional, kind)`` for a run-time type hint, or None if it is not
-    modelled (the run-time twin of ``_hint``)."""
+    modelled. Optional lists and objects are not modelled yet."""
     origin, args = typing.get_origin(hint), typing.get_args(hint)
     if origin is typing.Union or origin is types.UnionType:
         members = [a for a in args if a is not type(None)]
@@ -381,7 +372,9 @@ def runtime_params(fn: Callable, self_class: Optional[type] = None,
     return tuple(names), tuple(kinds), tuple(hints), untestable
 
 
-def read_params(fn_node: nodes.FunctionDef, globals_: dict):
+def read_params(fn_node: nodes.FunctionDef, globals_: dict, hints: Dict[str, object]):
+    """The parameters' sorts; ``hints`` are their run-time type hints
+    (``runtime_params``), the annotations as Python resolved them."""
     args = fn_node.args
     if args.vararg:
         raise Untranslatable("signature", fn_node.lineno, {"construct": "*" + args.vararg})
@@ -391,9 +384,9 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
               (args.args or [], args.annotations or [], "positional"),
               (args.kwonlyargs or [], args.kwonlyargs_annotations or [], "keyword")]
     params, kinds = [], []
-    for arg_nodes, hints, kind_name in groups:
+    for arg_nodes, written, kind_name in groups:
         for i, arg in enumerate(arg_nodes):
-            ann = hints[i] if i < len(hints) else None
+            ann = written[i] if i < len(written) else None
             if ann is None and not params and _method_of(fn_node, globals_) is not None:
                 # `self` of a method: an instance of its class.
                 kind = heap.class_kind(_method_of(fn_node, globals_))
@@ -405,7 +398,7 @@ def read_params(fn_node: nodes.FunctionDef, globals_: dict):
                 params.append(ir.Var(arg.name, ir.REF, False, kind))
                 kinds.append(kind_name)
                 continue
-            sort, optional, kind = param_type(arg.name, ann, globals_, fn_node)
+            sort, optional, kind = param_type(arg.name, ann, hints.get(arg.name), fn_node)
             params.append(ir.Var(arg.name, sort, optional, kind))
             kinds.append(kind_name)
     _one_list_kind(params, fn_node.lineno)
@@ -436,67 +429,19 @@ def _method_of(fn_node: nodes.FunctionDef, globals_: dict):
     return None
 
 
-def param_type(name: str, ann: Optional[nodes.NodeNG], globals_: dict, fn_node):
-    """The sort a parameter's hint names, and whether it may also be None:
-    ``int``, ``Optional[str]``, ``float | None``, ``Union[None, int]``, or the
-    same written as a string."""
+def param_type(name: str, ann: Optional[nodes.NodeNG], hint: object, fn_node):
+    """The sort a parameter's run-time hint names (``int``, ``Optional[str]``,
+    ``float | None``, ``list[int]``, a class, or the same written as a string),
+    whether it may also be None, and its kind; ``ann`` is the annotation as
+    written, for the message."""
     if ann is None:
         raise Untranslatable("param-untyped", fn_node.lineno, {"name": name})
-    node = ann
-    if isinstance(ann, nodes.Const) and isinstance(ann.value, str):
-        try:
-            node = astroid.extract_node(ann.value)
-        except (astroid.AstroidSyntaxError, ValueError):
-            node = None
-    text = ann.value if isinstance(ann, nodes.Const) and isinstance(ann.value, str) \
-        else ann.as_string()
-    found = _hint(node, globals_) if node is not None else None
+    found = runtime_sort(hint) if hint is not None else None
     if found is None:
+        text = ann.value if isinstance(ann, nodes.Const) and isinstance(ann.value, str) \
+            else ann.as_string()
         raise Untranslatable("param-type", ann.lineno, {"name": name, "hint_text": text})
     return found
-
-
-def _hint(node: nodes.NodeNG, globals_: dict):
-    """(sort, optional, kind) for a hint node, or None if it is not modelled."""
-    def lookup(n):
-        return _lookup(n, globals_)
-
-    def is_none(n):
-        return isinstance(n, nodes.Const) and n.value is None
-
-    def plain(n):
-        obj = lookup(n)
-        if isinstance(obj, type) and obj in _SORTS:
-            return _SORTS[obj], ""
-        if isinstance(n, nodes.Subscript) and lookup(n.value) in (list, typing.List):
-            elem = lookup(n.slice)
-            if elem in heap.LIST_ELEMENTS:
-                return ir.REF, heap.list_kind(heap.LIST_ELEMENTS[elem])
-            return None
-        if isinstance(obj, type) and obj.__module__ not in ("builtins", "typing"):
-            kind = heap.class_kind(obj)
-            return None if kind is None else (ir.REF, kind)
-        return None
-
-    members = None
-    if isinstance(node, nodes.BinOp) and node.op == "|":
-        members = [node.left, node.right]
-    elif isinstance(node, nodes.Subscript):
-        origin = lookup(node.value)
-        if origin is typing.Optional:
-            members = [node.slice, None]
-        elif origin is typing.Union and isinstance(node.slice, nodes.Tuple):
-            members = list(node.slice.elts)
-    if members is None:
-        found = plain(node)
-        return None if found is None else (found[0], False, found[1])
-    types = [m for m in members if m is not None and not is_none(m)]
-    if len(types) != 1 or len(types) == len(members):
-        return None  # a union of two types, or no None in it
-    found = plain(types[0])
-    if found is None or found[0] == ir.REF:
-        return None  # Optional lists and objects are not modelled yet
-    return found[0], True, ""
 
 
 def read_part(node: Optional[nodes.NodeNG], runtime: Callable, role: str,

@@ -49,7 +49,7 @@ from refines.loops import Loops
 from refines.methods import Methods
 from refines.opaque import Opaque
 from refines.strings import Strings, str_const
-from refines.values import Conflict, MaybeUnbound, merge, shape  # noqa: F401 -- re-exported
+from refines.values import Conflict, MaybeUnbound, merge
 
 # Python statement keywords for the node kinds we do not translate yet.
 _STATEMENT_NAMES = {

@@ -82,7 +82,6 @@ class Undecided:
     hint: Optional[str] = None
     message_key: Optional[str] = None
     seeds: List[Tuple[str, Dict[str, Any]]] = field(default_factory=list)  # (origin, inputs)
-    notes: List[str] = field(default_factory=list)
     # More inputs that satisfy `assuming`, from the solver (n -> up to n of them),
     # when it can produce them; a narrow precondition asks for them.
     more: Optional[Callable[[int], List[Dict[str, Any]]]] = None
