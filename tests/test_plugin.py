@@ -139,7 +139,9 @@ def test_json_report_follows_the_schema(project):
     assert data["summary"] == {"proved": 3, "refuted": 1, "tested": 1, "unknown": 1,
                                "error": 1}
     keys = {"nodeid", "function", "path", "line", "verdict", "seconds", "reason",
-            "counterexample", "exact_precondition", "suggested_assuming", "notes", "testing"}
+            "counterexample", "exact_precondition", "precondition_scope",
+            "sufficient_preconditions", "suggested_assuming", "precondition_note", "notes",
+            "testing"}
     assert all(set(r) == keys for r in data["results"])
     by_id = {r["nodeid"]: r for r in data["results"]}
     shifted = by_id["specs.py::shifted"]
@@ -155,6 +157,8 @@ def test_json_report_follows_the_schema(project):
     assert shifted["testing"] is None
     assert shifted["exact_precondition"] == "x > 4"
     assert shifted["suggested_assuming"] == "lambda x: x > 4"
+    assert shifted["precondition_scope"] == "function"
+    assert shifted["sufficient_preconditions"] == []
     assert by_id["specs.py::bump"]["verdict"] == "proved"
     assert by_id["specs.py::bump"]["reason"] is None
     looping = by_id["specs.py::looping"]

@@ -249,7 +249,7 @@ def test(ob: Obligation, undecided: Undecided, count: int = DEFAULT_EXAMPLES,
         return result
     if tester.failure is not None:
         result.notes.insert(0, f"tested, not proved, because: {why}")
-        return _refuted(ob, result, tester, limit)
+        return _refuted(ob, result, tester, limit, undecided)
     if tester.stats.examples == 0:
         detail = ("every drawn input was outside `assuming`" if tester.stats.rejected
                   else "every run was stopped by the time limit" if tester.stats.overran
@@ -340,11 +340,17 @@ def _key(inputs: Dict[str, Any]) -> str:
     return repr(sorted((k, type(v).__name__, repr(v)) for k, v in inputs.items()))
 
 
-def _refuted(ob: Obligation, result: Result, tester: Tester, limit) -> Result:
+def _refuted(ob: Obligation, result: Result, tester: Tester, limit,
+             undecided: Undecided) -> Result:
     failure = tester.failure
     result.reason = None
     result.hint = None
     refute(result, ob, failure.pre, failure.run, failure.judgement, "testing", limit)
-    result.precondition_note = ("not computed: this counterexample was found by testing, "
-                                "not by the solver")
+    if undecided.preconditions is None:
+        result.precondition_note = ("not computed: the body is not translated, so there is "
+                                    "no behaviour to compute it from")
+        return result
+    from refines import precondition
+
+    precondition.fill(result, ob, undecided.preconditions(failure.pre))
     return result

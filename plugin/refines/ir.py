@@ -809,3 +809,70 @@ def _render_node(t: Term, memo: dict):
         return (f"{_render(t.then, p + 1, memo)} if {_render(t.cond, p + 1, memo)} "
                 f"else {_render(t.orelse, p, memo)}"), p
     raise TypeError(f"not a term: {t!r}")
+
+
+# ---------------------------------------------------------------- rewriting
+
+
+def substitute(t: Term, replace) -> Term:
+    """``t`` with every node for which ``replace(node)`` gives a term replaced
+    by that term (``None``: keep the node and rewrite below it). Nodes are
+    rebuilt with the plain constructors, so the meaning is exactly that of
+    the substitution; shared sub-terms stay shared (memoised by ``id``)."""
+    memo: dict = {}
+    stack = [(t, False)]
+    while stack:
+        node, ready = stack.pop()
+        if id(node) in memo:
+            continue
+        new = replace(node)
+        if new is not None:
+            memo[id(node)] = new
+            continue
+        kids = children(node)
+        if not kids:
+            memo[id(node)] = node
+        elif not ready:
+            stack.append((node, True))
+            stack.extend((k, False) for k in kids if id(k) not in memo)
+        else:
+            rebuilt = tuple(memo[id(k)] for k in kids)
+            memo[id(node)] = node if all(a is b for a, b in zip(rebuilt, kids)) \
+                else _with_children(node, rebuilt)
+    return memo[id(t)]
+
+
+def _with_children(t: Term, kids: tuple) -> Term:
+    if isinstance(t, Arith):
+        return Arith(t.op, kids[0], kids[1], t.sort)
+    if isinstance(t, Cmp):
+        return Cmp(t.op, kids[0], kids[1])
+    if isinstance(t, Neg):
+        return Neg(kids[0], t.sort)
+    if isinstance(t, ToInt):
+        return ToInt(kids[0])
+    if isinstance(t, Not):
+        return Not(kids[0])
+    if isinstance(t, And):
+        return And(kids)
+    if isinstance(t, Or):
+        return Or(kids)
+    if isinstance(t, Ite):
+        return Ite(*kids)
+    if isinstance(t, Op):
+        return Op(t.name, kids, t.sort)
+    raise TypeError(f"not a term with children: {t!r}")
+
+
+def variables(t: Term) -> list:
+    """The distinct ``Var`` nodes in ``t``, in the order a walk meets them."""
+    out, seen, stack = [], set(), [t]
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, Var):
+            out.append(n)
+        stack.extend(reversed(children(n)))
+    return out

@@ -1,4 +1,5 @@
-"""The exact precondition of a spec, made readable and checked before it is shown.
+"""The exact precondition of a spec, simpler sufficient ones, and the
+suggested ``assuming``: computed, made readable and checked before shown.
 
 For a deterministic body the exact (weakest) precondition follows from the
 one-point law: the post-state is a function of the pre-state, so quantifying
@@ -10,64 +11,139 @@ where ``allowed_o`` is the relation with ``result`` replaced by the returned
 value (and no ``raises`` condition holding), or for a raising outcome, some
 ``raises`` condition for that class holding.
 
-Readability: if-then-else terms are lifted out of comparisons, the formula
-is put in disjunctive normal form, each comparison is normalised to
-``<linear form> <op> <constant>``, and the solver removes empty cubes,
-redundant literals and subsumed cubes. The printed Python is parsed back with
-the project's own translator and the solver checks it is equivalent to the
-computed condition (under the current ``assuming`` for the suggestion): a
-wrong suggestion is never shown.
+Where parts of the body are not translated, the outcomes also depend on the
+opaque values ``h`` that stand for what those parts do, and the precondition
+must hold whatever they do: ``forall h. AND over o of (guard_o -> allowed_o)``
+(for an input and a choice of ``h`` at most one guard holds; a choice no real
+run makes satisfies none). The quantifier is eliminated by the solver
+(``eliminate``). An outcome that is not modelled (a call that may raise)
+counts as breaking the spec. The result is then exact *for the translation*:
+the weakest condition under which the function meets the spec whatever the
+untranslated parts do. For the function itself it is sufficient, not always
+necessary, and the report says so.
+
+Everything shown is Python text that the solver has checked (``readable``),
+and which the counterexample, a real run that breaks the spec, falsifies.
 """
 
 from __future__ import annotations
 
+import builtins
 import math
-from dataclasses import dataclass
-from math import gcd
-from typing import Dict, List, Optional, Sequence, Tuple
+from dataclasses import dataclass, field
+from typing import Any, Dict, List, Optional
 
 import z3
 
-from refines import ir
-from refines.errors import SpecError, Untranslatable
+from refines import eliminate, ir, sufficient
 from refines.obligation import allowed
-from refines.translate import Scope, parse_expression, translate_spec
+from refines.readable import MAX_PRINTED, equivalent, mentions, printed, readable
 
-MAX_CUBES = 64
-MAX_PRINTED = 400  # nodes; past this a printed condition helps nobody
+# What a precondition is exact for: the function, or the translation, whose
+# untranslated parts may do anything (then it is sufficient for the function).
+FOR_FUNCTION = "function"
+FOR_TRANSLATION = "translation"
 
 
 @dataclass
 class Preconditions:
-    exact: Optional[str]
-    suggested: Optional[str]
-    note: Optional[str] = None
+    exact: Optional[str]  # the weakest precondition, as checked Python text
+    suggested: Optional[str]  # a lambda: assuming tightened by it
+    note: Optional[str] = None  # why something is not shown
+    scope: str = FOR_FUNCTION  # what ``exact`` is exact for
+    sufficient: List[str] = field(default_factory=list)  # simpler, stronger ones
 
 
 def weakest(behaviour: ir.Behaviour, spec) -> ir.Term:
-    # An unmodelled outcome contributes nothing: its inputs are left out, so the
-    # condition is then sufficient rather than exact (the report says so).
-    return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes
-                    if not o.unmodelled))
+    """The weakest precondition of the translated body for ``spec``, with the
+    opaque values of untranslated parts still free (see ``compute``)."""
+    if not any(ir.is_opaque(v) for v in _outcome_vars(behaviour)):
+        # Guards are disjoint and cover every input: substitute (one-point law).
+        # An unmodelled outcome is left out, i.e. counts as breaking the spec.
+        return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes
+                        if not o.unmodelled))
+    return ir.and_(*(ir.implies(o.guard, ir.FALSE if o.unmodelled else allowed(spec, o))
+                     for o in behaviour.outcomes))
 
 
-def exact(ob, behaviour: ir.Behaviour, spec, solver) -> Preconditions:
-    wp = weakest(behaviour, spec)
+def _outcome_vars(behaviour: ir.Behaviour) -> List[ir.Var]:
+    out: List[ir.Var] = []
+    for o in behaviour.outcomes:
+        out.extend(ir.variables(o.guard))
+        if o.returns:
+            out.extend(_value_vars(o.value))
+        for arr in (o.heap or {}).values():
+            out.extend(ir.variables(arr))
+    return out
+
+
+def _value_vars(v) -> List[ir.Var]:
+    if isinstance(v, ir.Tup):
+        return [x for i in v.items for x in _value_vars(i)]
+    if isinstance(v, ir.Opt):
+        return ir.variables(v.none) + ir.variables(v.value)
+    if isinstance(v, ir.Ref):
+        return ir.variables(v.ref)
+    if isinstance(v, ir.Term):
+        return ir.variables(v)
+    return []
+
+
+def compute(ob, behaviour: ir.Behaviour, spec, solver,
+            counterexample: Optional[Dict[str, Any]] = None) -> Preconditions:
+    """The exact precondition, simpler sufficient ones and the suggestion for
+    a refuted obligation. ``counterexample`` (the inputs before the failing
+    call) must falsify everything shown; what it does not falsify is dropped."""
     params = ob.params
-    exact_text = readable(wp, ir.TRUE, params, solver)
-    if exact_text is None:
+    wp = weakest(behaviour, spec)
+    scope = FOR_FUNCTION
+    parts = tuple(behaviour.untranslated)
+    unmodelled = [o.unmodelled for o in behaviour.outcomes if o.unmodelled]
+    opaque = [v for v in ir.variables(wp) if ir.is_opaque(v)]
+    if parts or unmodelled:
+        scope = FOR_TRANSLATION
+    if opaque:
+        gone = eliminate.forall(wp, opaque, solver)
+        if gone.term is None:
+            return Preconditions(None, None, _about(parts, unmodelled) + ", and "
+                                 + gone.why, scope)
+        wp = gone.term
+    shown = printed(wp, ir.TRUE, params, solver)
+    if shown is None:
         if ir.printed_size(wp) > MAX_PRINTED:
             why = (f"the exact precondition has {ir.printed_size(wp)} operations once "
                    f"branches are expanded, too many to print readably")
         else:
             why = ("the printed form of the exact precondition could not be checked "
                    "equivalent to the computed one within the budget, so it is not shown")
-        return Preconditions(None, None, why)
+        return Preconditions(None, None, why, scope)
+    exact_text = shown.text
     tightened = ir.and_(spec.assuming.holds, wp)
     status, _, _ = solver.check(tightened)
     if status == z3.unsat:
+        if scope == FOR_TRANSLATION:
+            return Preconditions(exact_text if exact_text != "False" else None, None,
+                                 "whatever " + _about(parts, unmodelled, short=True)
+                                 + ", no input allowed by the current assuming can be shown "
+                                 "to meet the spec: the translation keeps too little of "
+                                 "what they do", scope)
         return Preconditions(exact_text, None,
-                             "no input allowed by the current assuming meets the spec")
+                             "no input allowed by the current assuming meets the spec", scope)
+    out = Preconditions(exact_text, None, None, scope)
+    out.sufficient = sufficient.alternatives(wp, shown, spec.assuming.holds, params, solver)
+    out.suggested = _suggestion(ob, wp, tightened, exact_text, spec, solver)
+    if out.suggested is None:
+        out.note = "no tightened assuming could be checked"
+    if counterexample is not None:
+        _falsified_by(out, counterexample, ob)
+    return out
+
+
+def _suggestion(ob, wp: ir.Term, tightened: ir.Term, exact_text: str, spec,
+                solver) -> Optional[str]:
+    """``assuming`` tightened by the precondition, as a lambda: the shorter of
+    the whole simplified, and the user's text ``and`` the rest."""
+    params = ob.params
     candidates = []
     if ob.assuming is None:
         candidates.append(exact_text)
@@ -78,473 +154,61 @@ def exact(ob, behaviour: ir.Behaviour, spec, solver) -> Preconditions:
         rest = readable(wp, spec.assuming.holds, params, solver)
         if rest is not None:
             both = f"({ob.assuming.text}) and ({rest})" if rest != "True" else ob.assuming.text
-            if _equivalent(both, tightened, ir.TRUE, params, solver):
+            if equivalent(both, tightened, ir.TRUE, params, solver):
                 candidates.append(both)
     if not candidates:
-        return Preconditions(exact_text, None, "no tightened assuming could be checked")
+        return None
     best = min(candidates, key=len)
-    used = [p.name for p in params if _mentions(best, p.name)]
-    return Preconditions(exact_text, f"lambda {', '.join(used)}: {best}".replace(
-        "lambda : ", "lambda: "))
+    used = [p.name for p in params if mentions(best, p.name)]
+    return f"lambda {', '.join(used)}: {best}".replace("lambda : ", "lambda: ")
 
 
-def _mentions(text: str, name: str) -> bool:
-    import re
-
-    return re.search(rf"(?<![\w.]){re.escape(name)}(?!\w)", text) is not None
-
-
-# ---------------------------------------------------------------- readable form
-
-
-def readable(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
-             solver) -> Optional[str]:
-    """Python text equivalent to ``target`` wherever ``context`` holds."""
-    cubes = dnf(target, False)
-    if cubes is not None:
-        cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
-        cubes = simplify_cubes(cubes, target, context, solver)
-        # Only worth its queries where the cubes reason through //, %,
-        # products or floats: linear integer bounds already read well.
-        if (len(cubes) > 1 or (cubes and len(cubes[0]) > 1)) and any(
-                _nonlinear(lit) for c in cubes for lit in c):
-            single = _simpler_literal([ir.or_(*(ir.and_(*c) for c in cubes))], context,
-                                      params, target, solver, force=True)
-            if len(single) == 1 and single[0] is not None and not isinstance(single[0], ir.Or):
-                cubes = [single]
-        cubes = [_simpler_literal(c, context, params, target, solver) for c in cubes]
-        text = print_cubes(cubes)
-        if _equivalent(text, target, context, params, solver):
-            return text
-    if ir.printed_size(target) > MAX_PRINTED:
-        return None  # too large to be read, or even printed
-    text = ir.render(target)  # unsimplified, but still Python with its meaning
-    if _equivalent(text, target, context, params, solver):
-        return text
-    return None
+def _about(parts, unmodelled, short: bool = False) -> str:
+    what = "; ".join(parts) if parts else "; ".join(dict.fromkeys(unmodelled))
+    if short:
+        return f"the untranslated parts do ({what})" if parts else f"happens where {what}"
+    return (f"not computed: the precondition ranges over what the untranslated parts do "
+            f"({what})" if parts else f"not computed: part of the behaviour is not modelled "
+                                      f"({what})")
 
 
-def _equivalent(text: str, target: ir.Term, context: ir.Term,
-                params: Sequence[ir.Var], solver) -> bool:
-    """Re-read ``text`` with the translator; the solver checks it equals ``target``."""
-    try:
-        node = parse_expression(text)
-        env = {p.name: ir.initial(p) for p in params}
-        value = translate_spec(node, env, Scope({"math": math}, [p.name for p in params]),
-                               "check")
-    except (SyntaxError, SpecError, Untranslatable, Exception):  # noqa: BLE001
-        return False
-    # It must not raise where it matters, and must agree everywhere it matters.
-    differs = ir.or_(ir.not_(value.defined),
-                     ir.not_(ir.cmp("==", value.holds, target)))
-    status, _, _ = solver.check(context, differs)
-    return status == z3.unsat
+def _falsified_by(out: Preconditions, inputs: Dict[str, Any], ob) -> None:
+    """The counterexample breaks the spec, so every precondition shown must be
+    false on it. Evaluated by Python on copies of the inputs; a text that is
+    true (or raises) there is an internal inconsistency and is not shown."""
+    scope = {"math": math, "__builtins__": builtins}
 
-
-# ---------------------------------------------------------------- DNF with ite lifting
-
-Cube = List[ir.Term]
-
-
-def dnf(t: ir.Term, negate: bool) -> Optional[List[Cube]]:
-    """Disjunctive normal form of ``t`` (or of ``not t``); None if too large."""
-    if isinstance(t, ir.Const):
-        return [[]] if bool(t.value) != negate else []
-    if isinstance(t, ir.Not):
-        return dnf(t.arg, not negate)
-    if isinstance(t, (ir.And, ir.Or)):
-        conj = isinstance(t, ir.And) != negate
-        parts = [dnf(a, negate) for a in t.args]
-        if any(p is None for p in parts):
+    def holds(text: str) -> Optional[bool]:
+        try:
+            return bool(eval(text, scope, dict(inputs)))  # noqa: S307 -- checked text
+        except Exception:  # noqa: BLE001
             return None
-        return _product(parts) if conj else _concat(parts)
-    if isinstance(t, ir.Ite):
-        # (c and a) or (not c and b), with the negation pushed into a and b.
-        left = _product([dnf(t.cond, False), dnf(t.then, negate)])
-        right = _product([dnf(t.cond, True), dnf(t.orelse, negate)])
-        return _concat([left, right])
-    if isinstance(t, (ir.Var, ir.Op)) and t.sort == ir.BOOL:
-        return [[ir.not_(t) if negate else t]]
-    if isinstance(t, ir.Cmp):
-        if t.left.sort == ir.BOOL and t.right.sort == ir.BOOL:
-            same = ir.or_(ir.and_(t.left, t.right),
-                          ir.and_(ir.not_(t.left), ir.not_(t.right)))
-            return dnf(same, negate != (t.op == "!="))
-        if negate and ir.FLOAT in (t.left.sort, t.right.sort) and t.op not in ("==", "!="):
-            return [[ir.Not(t)]]  # with NaN, not (x < y) is not x >= y
-        op = ir.NEGATED[t.op] if negate else t.op
-        out: List[Cube] = []
-        lcases, rcases = cases(t.left), cases(t.right)
-        if lcases is None or rcases is None:
-            return None
-        for lcube, lterm in lcases:
-            for rcube, rterm in rcases:
-                out.append(lcube + rcube + [ir.cmp(op, lterm, rterm)])
-                if len(out) > MAX_CUBES:
-                    return None
-        return out
-    return None
 
-
-def cases(t: ir.Term) -> Optional[List[Tuple[Cube, ir.Term]]]:
-    """``t`` as a list of (condition cube, if-free term) pairs."""
-    if isinstance(t, (ir.Var, ir.Const)):
-        return [([], t)]
-    if isinstance(t, ir.Ite):
-        out = []
-        for cond_cubes, branch in ((dnf(t.cond, False), t.then), (dnf(t.cond, True), t.orelse)):
-            sub = cases(branch)
-            if cond_cubes is None or sub is None:
-                return None
-            out.extend((c + sc, st) for c in cond_cubes for sc, st in sub)
-        return out if len(out) <= MAX_CUBES else None
-    if isinstance(t, ir.ToInt):
-        a, b = dnf(t.arg, False), dnf(t.arg, True)
-        if a is None or b is None:
-            return None
-        return [(c, ir.const(1)) for c in a] + [(c, ir.const(0)) for c in b]
-    if isinstance(t, ir.Neg):
-        sub = cases(t.arg)
-        return None if sub is None else [(c, ir.neg(x)) for c, x in sub]
-    if isinstance(t, ir.Arith):
-        left, right = cases(t.left), cases(t.right)
-        if left is None or right is None or len(left) * len(right) > MAX_CUBES:
-            return None
-        return [(lc + rc, ir.arith(t.op, lt, rt)) for lc, lt in left for rc, rt in right]
-    if isinstance(t, ir.Op):
-        combos: List[Tuple[Cube, list]] = [([], [])]
-        for a in t.args:
-            sub = cases(a)
-            if sub is None or len(combos) * len(sub) > MAX_CUBES:
-                return None
-            combos = [(c + sc, args + [st]) for c, args in combos for sc, st in sub]
-        return [(c, ir.Op(t.name, tuple(args), t.sort)) for c, args in combos]
-    return None
-
-
-def _product(parts: List[Optional[List[Cube]]]) -> Optional[List[Cube]]:
-    acc: List[Cube] = [[]]
-    for p in parts:
-        if p is None:
-            return None
-        acc = [a + b for a in acc for b in p]
-        if len(acc) > MAX_CUBES:
-            return None
-    return acc
-
-
-def _concat(parts: List[Optional[List[Cube]]]) -> Optional[List[Cube]]:
-    out: List[Cube] = []
-    for p in parts:
-        if p is None:
-            return None
-        out.extend(p)
-    return out if len(out) <= MAX_CUBES else None
-
-
-# ---------------------------------------------------------------- literals
-
-
-def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
-    """``t`` as {atom text: coefficient} plus a constant; non-linear parts are atoms."""
-    if isinstance(t, ir.Const):
-        return {}, int(t.value)
-    if isinstance(t, ir.Neg):
-        c, k = linear(t.arg, atoms)
-        return {a: -v for a, v in c.items()}, -k
-    if isinstance(t, ir.Arith) and t.op in ("+", "-"):
-        c1, k1 = linear(t.left, atoms)
-        c2, k2 = linear(t.right, atoms)
-        sign = 1 if t.op == "+" else -1
-        out = dict(c1)
-        for a, v in c2.items():
-            out[a] = out.get(a, 0) + sign * v
-        return {a: v for a, v in out.items() if v}, k1 + sign * k2
-    if isinstance(t, ir.Arith) and t.op == "*":
-        for const_side, other in ((t.left, t.right), (t.right, t.left)):
-            if isinstance(const_side, ir.Const):
-                c, k = linear(other, atoms)
-                m = int(const_side.value)
-                return {a: v * m for a, v in c.items() if v * m}, k * m
-    # A non-linear part is an atom; its operands are normalised in turn.
-    if isinstance(t, ir.Arith):
-        t = ir.arith(t.op, normal_term(t.left), normal_term(t.right))
-    key = ir.render(t)
-    atoms[key] = t
-    return {key: 1}, 0
-
-
-def normal_term(t: ir.Term) -> ir.Term:
-    """Fold the linear parts of a term: ``(x + 2 - 1) // 2`` -> ``(x + 1) // 2``."""
-    if isinstance(t, (ir.Var, ir.Const)):
-        return t
-    atoms: Dict[str, ir.Term] = {}
-    coeffs, k = linear(t, atoms)
-    return _rebuild(coeffs, k, atoms, sorted(coeffs))
-
-
-def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
-             names: Sequence[str]) -> ir.Term:
-    lhs: Optional[ir.Term] = None
-    for a in names:
-        v = coeffs[a]
-        term = atoms[a] if abs(v) == 1 else ir.arith("*", ir.const(abs(v)), atoms[a])
-        if lhs is None:
-            lhs = term if v > 0 else ir.neg(term)
-        else:
-            lhs = ir.arith("+" if v > 0 else "-", lhs, term)
-    if lhs is None:
-        return ir.const(k)
-    if k > 0:
-        return ir.arith("+", lhs, ir.const(k))
-    if k < 0:
-        return ir.arith("-", lhs, ir.const(-k))
-    return lhs
-
-
-def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
-    """A comparison as ``<linear form> <op> <constant>``, constants folded."""
-    if not isinstance(lit, ir.Cmp) or lit.left.sort != ir.INT or lit.right.sort != ir.INT:
-        return lit  # only integer comparisons are rearranged: float ones round
-    atoms: Dict[str, ir.Term] = {}
-    c1, k1 = linear(lit.left, atoms)
-    c2, k2 = linear(lit.right, atoms)
-    coeffs = dict(c1)
-    for a, v in c2.items():
-        coeffs[a] = coeffs.get(a, 0) - v
-    coeffs = {a: v for a, v in coeffs.items() if v}
-    k = k2 - k1  # sum(coeffs * atoms) <op> k
-    op = lit.op
-    if not coeffs:
-        return ir.cmp(op, ir.const(0), ir.const(k))
-    names = sorted(coeffs, key=lambda a: (order.get(a, len(order)), a))
-    if coeffs[names[0]] < 0:  # lead with a positive coefficient
-        coeffs = {a: -v for a, v in coeffs.items()}
-        k, op = -k, ir.FLIPPED[op]
-    g = 0
-    for v in coeffs.values():
-        g = gcd(g, abs(v))
-    if g > 1:  # integer tightening: 2*x > 5  <=>  x >= 3
-        if op in ("==", "!="):
-            if k % g:
-                return ir.const(op == "!=")
-            k //= g
-        elif k % g and op in (">", ">="):
-            op, k = ">=", -((-k) // g)  # the least integer above k / g
-        elif k % g:
-            op, k = "<=", k // g  # the greatest integer below k / g
-        else:
-            k //= g
-        coeffs = {a: v // g for a, v in coeffs.items()}
-    if len(names) == 1 and coeffs[names[0]] == 1:
-        bounded = _floordiv_bounds(atoms[names[0]], op, k, order)
-        if bounded is not None:
-            return bounded
-    if k == 0 and len(names) == 2 and coeffs[names[1]] == -1 and coeffs[names[0]] == 1:
-        return ir.Cmp(op, atoms[names[0]], atoms[names[1]])  # x - y == 0  ->  x == y
-    # Over the integers x > -1 is x >= 0: compare with zero where one step does it.
-    if op == ">" and k == -1:
-        op, k = ">=", 0
-    elif op == "<" and k == 1:
-        op, k = "<=", 0
-    return ir.Cmp(op, _rebuild(coeffs, 0, atoms, names), ir.const(k))
-
-
-def _floordiv_bounds(atom: ir.Term, op: str, k: int, order: Dict[str, int]):
-    """``e // m <op> k`` for a constant m > 0, as bounds on ``e``:
-    e // m >= k  <=>  e >= k*m   and   e // m <= k  <=>  e <= k*m + m - 1."""
-    if not (isinstance(atom, ir.Arith) and atom.op == "//"
-            and isinstance(atom.right, ir.Const) and atom.right.value > 0):
-        return None
-    e, m = atom.left, int(atom.right.value)
-    low, high = k * m, k * m + m - 1
-    bounds = {">=": [(">=", low)], ">": [(">=", high + 1)], "<=": [("<=", high)],
-              "<": [("<=", low - 1)], "==": [(">=", low), ("<=", high)]}.get(op)
-    if bounds is None:
-        return None
-    return ir.and_(*(normal_literal(ir.cmp(o, e, ir.const(b)), order) for o, b in bounds))
-
-
-def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
-    order = {p.name: i for i, p in enumerate(params)}
-    out: Cube = []
-    for lit in cube:
-        n = normal_literal(lit, order)
-        if ir.is_false(n):
-            return None
-        for part in (n.args if isinstance(n, ir.And) else (n,)):
-            if ir.is_true(part) or any(ir.render(part) == ir.render(o) for o in out):
-                continue
-            out.append(part)
-    # Literals about earlier parameters first, as the signature reads.
-    out.sort(key=lambda lit: _first_param(lit, order))
-    return out
-
-
-def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
-    stack, best = [t], len(order)
-    while stack:
-        n = stack.pop()
-        if isinstance(n, ir.Var):
-            best = min(best, order.get(n.name, len(order)))
-        stack.extend(ir.children(n))
-    return best
-
-
-# ---------------------------------------------------------------- solver clean-up
-
-
-def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
-                   solver) -> List[Cube]:
-    """Drop empty cubes, redundant literals and subsumed cubes, keeping
-    ``OR(cubes)`` equivalent to ``target`` under ``context``."""
+    bad = []
+    if out.exact is not None and holds(out.exact) is not False:
+        bad.append(out.exact)
+        out.exact = None
     kept = []
-    for cube in cubes:
-        status, _, _ = solver.check(context, *cube)
-        if status != z3.unsat:
-            kept.append(cube)
-    cubes = kept
-    not_target = ir.not_(target)
-    for i, cube in enumerate(cubes):
-        lits = list(cube)
-        # Weaken the cube by dropping a literal while it still implies the
-        # target; that also drops literals the context implies. The largest
-        # literals go first: `len(s[0]) == 1` implies `len(s) > 0` in the
-        # model, but only the latter is safe to print (s[0] raises on "").
-        for lit in sorted(cube, key=ir.printed_size, reverse=True):
-            trial = [x for x in lits if x is not lit]
-            status, _, _ = solver.check(context, *trial, not_target)
-            if status == z3.unsat:
-                lits = trial
-        cubes[i] = lits
-    result: List[Cube] = []
-    for i, cube in enumerate(cubes):
-        others = result + cubes[i + 1:]
-        covered = ir.or_(*(ir.and_(*c) for c in others)) if others else ir.FALSE
-        status, _, _ = solver.check(context, *cube, ir.not_(covered))
-        if status != z3.unsat:
-            result.append(cube)
-    return result
+    for text in out.sufficient:
+        (bad.append(text) if holds(text) is not False else kept.append(text))
+    out.sufficient = kept
+    if out.suggested is not None and holds(out.suggested.split(":", 1)[1]) is not False:
+        bad.append(out.suggested)
+        out.suggested = None
+    if bad:
+        out.note = ("internal inconsistency: the counterexample satisfies "
+                    + "; ".join(f"`{t}`" for t in bad)
+                    + ", so it is not shown (please report it as a bug in pytest-refines)")
 
 
-def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],
-                     target: ir.Term, solver, force: bool = False) -> Cube:
-    """Replace a cube (or with ``force``, a whole condition) that reasons
-    through ``//``, ``%``, products or floats by one simple condition on one
-    parameter -- a comparison with a constant, or for a float ``not
-    math.isnan(x)`` and the like -- when the solver shows the two agree under
-    ``context`` (``0 <= x % y < y`` is ``y > 0``)."""
-    if not force and not any(_nonlinear(lit) for lit in cube):
-        return cube
-    if not force and len(cube) < 2 and ir.printed_size(cube[0]) <= 5:
-        return cube  # already as simple as a candidate
-    whole = ir.and_(*cube)
-    for candidate in _candidates(params, target):
-        status, _, _ = solver.check(context, ir.not_(ir.cmp("==", whole, candidate)))
-        if status == z3.unsat:
-            return [candidate]
-    return cube
-
-
-def _candidates(params: Sequence[ir.Var], target: ir.Term):
-    ints = sorted({c for c in _constants(target) if isinstance(c, int)} | {0, 1, -1},
-                  key=lambda c: (abs(c), c))[:6]
-    for p in params:
-        if p.optional:
-            none = ir.initial(p).none
-            yield ir.Not(none)
-            yield none
-        if p.sort == ir.INT:
-            for c in ints:
-                for op in (">", ">=", "<", "<=", "==", "!="):
-                    yield ir.Cmp(op, p, ir.const(c))
-        elif p.sort == ir.FLOAT:
-            for name in ("isnan", "isfinite", "isinf"):
-                test = ir.op(name, p, sort=ir.BOOL)
-                yield ir.Not(test)
-                yield test
-        elif p.sort == ir.BOOL:
-            yield p
-            yield ir.Not(p)
-        elif p.sort == ir.STR:
-            length = ir.str_len(p)
-            for c in (c for c in ints if c >= 0):
-                for op in (">", ">=", "<", "<=", "==", "!="):
-                    yield ir.Cmp(op, length, ir.const(c))
-
-
-def _nonlinear(t: ir.Term) -> bool:
-    stack = [t]
-    while stack:
-        n = stack.pop()
-        if n.sort == ir.FLOAT or isinstance(n, ir.Op):
-            return True
-        if isinstance(n, ir.Arith) and (n.op in ("//", "%") or (
-                n.op == "*" and not isinstance(n.left, ir.Const)
-                and not isinstance(n.right, ir.Const))):
-            return True
-        stack.extend(ir.children(n))
-    return False
-
-
-def _constants(t: ir.Term) -> set:
-    out, stack, seen = set(), [t], set()
-    while stack:
-        n = stack.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
-        if isinstance(n, ir.Const) and n.sort == ir.INT and abs(n.value) < 10 ** 6:
-            out.add(int(n.value))
-        stack.extend(ir.children(n))
-    return out
-
-
-# ---------------------------------------------------------------- printing
-
-
-def print_cubes(cubes: List[Cube]) -> str:
-    if not cubes:
-        return "False"
-    if any(not c for c in cubes):
-        return "True"
-    texts = [print_cube(c) for c in cubes]
-    if len(texts) == 1:
-        return texts[0]
-    return " or ".join(f"({t})" if " and " in t else t for t in texts)
-
-
-def print_cube(cube: Cube) -> str:
-    """Literals joined by ``and``; bounds on one expression become a chain."""
-    lits = list(cube)
-    out = []
-    used = set()
-    for i, a in enumerate(lits):
-        if i in used:
-            continue
-        chained = None
-        if isinstance(a, ir.Cmp) and a.op in (">", ">=") and isinstance(a.right, ir.Const):
-            for j in range(i + 1, len(lits)):
-                b = lits[j]
-                if (j not in used and isinstance(b, ir.Cmp) and b.op in ("<", "<=")
-                        and isinstance(b.right, ir.Const)
-                        and ir.render(b.left) == ir.render(a.left)):
-                    lower_op = "<" if a.op == ">" else "<="
-                    chained = (f"{ir.render(a.right)} {lower_op} {ir.render(a.left)} "
-                               f"{b.op} {ir.render(b.right)}")
-                    used.add(j)
-                    break
-        if isinstance(a, ir.Cmp) and a.op in ("<", "<=") and chained is None \
-                and isinstance(a.right, ir.Const):
-            for j in range(i + 1, len(lits)):
-                b = lits[j]
-                if (j not in used and isinstance(b, ir.Cmp) and b.op in (">", ">=")
-                        and isinstance(b.right, ir.Const)
-                        and ir.render(b.left) == ir.render(a.left)):
-                    lower_op = "<" if b.op == ">" else "<="
-                    chained = (f"{ir.render(b.right)} {lower_op} {ir.render(a.left)} "
-                               f"{a.op} {ir.render(a.right)}")
-                    used.add(j)
-                    break
-        out.append(chained or ir.render(a))
-    return " and ".join(out)
+def fill(result, ob, pre: Preconditions) -> None:
+    """Put ``pre`` into a refuted ``Result``."""
+    result.exact_precondition = pre.exact
+    result.precondition_scope = pre.scope if pre.exact is not None else None
+    result.sufficient_preconditions = list(pre.sufficient)
+    result.suggested_assuming = pre.suggested
+    result.precondition_note = pre.note
+    shown = [pre.suggested or ""] + list(pre.sufficient)
+    if any("math." in t for t in shown) and ob.fn.__globals__.get("math") is not math:
+        result.notes.append(f"the suggestion uses the math module: add `import math` "
+                            f"to {ob.show(ob.path)} before pasting it")

@@ -76,8 +76,14 @@ class Solver:
         A sat answer always comes with a z3 model in ``self.ctx``."""
         if self.budget.remaining() <= 0 or self.budget.units <= 0:
             return z3.unknown, None, "the solver budget ran out"
-        assertions = [self.lower(t) for t in terms]
-        assertions += self.lower.definitions  # of fresh constants (lower.Lowering)
+        return self.check_lowered(*[self.lower(t) for t in terms])
+
+    def check_lowered(self, *assertions: z3.BoolRef):
+        """``check`` for assertions already in z3 (a quantified one, say), in
+        ``self.ctx``; the lowering's definitions are added."""
+        if self.budget.remaining() <= 0 or self.budget.units <= 0:
+            return z3.unknown, None, "the solver budget ran out"
+        assertions = list(assertions) + self.lower.definitions  # lower.Lowering
         if self.per_query is None:
             return self.runner.check(assertions)
         # A slice of what is left, so that one hard query cannot spend it all.
@@ -223,6 +229,12 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         result.reason, result.hint, result.message_key = ill
         return result
 
+    def undecided(*args, **kwargs) -> Undecided:
+        # If testing finds a counterexample, its preconditions come from here.
+        out = Undecided(*args, **kwargs)
+        out.preconditions = _later(ob, behaviour, spec, budget.seconds)
+        return out
+
     found = violations(behaviour, spec)
     status, model, why = solver.check(spec.assuming.holds,
                                       ir.or_(*(v.term for v in found)))
@@ -231,7 +243,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         gap = _unmodelled(ob, behaviour, spec, solver)
         if gap is not None:
             reason, seeds = gap
-            return Undecided(reason, "exclude those inputs with assuming=, or leave them "
+            return undecided(reason, "exclude those inputs with assuming=, or leave them "
                                      "to testing", None, seeds)
         result.verdict = PROVED
         # What the proof takes for granted beyond the modelled semantics.
@@ -250,7 +262,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         else:
             reason = f"the solver could not decide within {budget.seconds:g} s ({why})"
             hint = "raise --refines-timeout, or split the function"
-        return Undecided(reason, hint)
+        return undecided(reason, hint)
 
     inputs = solver.inputs(model, ob.params)
     predicted = _predicted(solver, model, behaviour)
@@ -260,7 +272,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         with replay.watchdog(RUN_LIMIT):
             actual = replay.run(ob, inputs)
     except replay.Overrun:
-        return Undecided(f"the solver's counterexample {call} did not finish within "
+        return undecided(f"the solver's counterexample {call} did not finish within "
                          f"{RUN_LIMIT:g} s when run", seeds=[("solver", pre)])
     judgement = replay.judge(ob, inputs, actual, pre)
     if (judgement.holds or not replay.assuming_holds(ob, pre)) and untranslated:
@@ -269,7 +281,7 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         # starting from inputs where those parts could break the spec.
         seeds = [("solver", replay.before(pre))] + violating_inputs(
             ob, solver, [spec.assuming.holds, ir.or_(*(v.term for v in found))], model)
-        return Undecided(
+        return undecided(
             f"the solver's counterexample {call} depends on what untranslated parts "
             f"do ({'; '.join(untranslated)}), and the real call {actual.describe()}, "
             "which meets the spec", seeds=seeds)
@@ -285,32 +297,29 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
                        "otherwise please report it as a bug in pytest-refines")
         return result
     refute(result, ob, pre, actual, judgement, "solver", RUN_LIMIT)
-
-    if untranslated:
-        result.precondition_note = ("not computed: the exact precondition would range over "
-                                    "what untranslated parts do (" + "; ".join(untranslated)
-                                    + "), which this release does not eliminate")
-        return result
-    if any(o.unmodelled for o in behaviour.outcomes):
-        result.precondition_note = ("not computed: part of the behaviour is not modelled "
-                                    "(" + next(o.unmodelled for o in behaviour.outcomes
-                                               if o.unmodelled) + ")")
-        return result
-    solver.per_query = max(0.05, budget.seconds * PER_SIMPLIFICATION)
-    try:
-        pre = precondition.exact(ob, behaviour, spec, solver)
-    except Exception as exc:  # noqa: BLE001 -- the refutation stands on its own
-        result.precondition_note = (f"the exact precondition could not be computed "
-                                    f"(internal error: {type(exc).__name__}: {exc})")
-        return result
-    result.exact_precondition = pre.exact
-    result.suggested_assuming = pre.suggested
-    result.precondition_note = pre.note
-    if pre.suggested and "math." in pre.suggested and \
-            ob.fn.__globals__.get("math") is not math:
-        result.notes.append(f"the suggestion uses the math module: add `import math` "
-                            f"to {ob.show(ob.path)} before pasting it")
+    precondition.fill(result, ob, _preconditions(ob, behaviour, spec, solver, pre))
     return result
+
+
+def _preconditions(ob: Obligation, behaviour: ir.Behaviour, spec: Spec, solver: Solver,
+                   counterexample: dict):
+    """The preconditions of a refuted obligation (``precondition.compute``),
+    each clean-up query on a slice of the budget; a failure is a note, and
+    the refutation stands on its own."""
+    solver.per_query = max(0.05, solver.budget.seconds * PER_SIMPLIFICATION)
+    try:
+        return precondition.compute(ob, behaviour, spec, solver, counterexample)
+    except Exception as exc:  # noqa: BLE001 -- the refutation stands on its own
+        return precondition.Preconditions(
+            None, None, f"the exact precondition could not be computed (internal error: "
+                        f"{type(exc).__name__}: {exc})")
+
+
+def _later(ob: Obligation, behaviour: ir.Behaviour, spec: Spec, seconds: float):
+    """The preconditions for a counterexample the tester may find, on a
+    budget of their own (the obligation's was spent on the proof)."""
+    return lambda counterexample: _preconditions(ob, behaviour, spec,
+                                                 Solver(Budget(seconds)), counterexample)
 
 
 def _unmodelled(ob: Obligation, behaviour: ir.Behaviour, spec, solver: Solver):
@@ -366,6 +375,7 @@ def _ill_formed(ob: Obligation, spec: Spec, solver: Solver):
 SEEDS = 8
 SEED_SHARE = 0.2
 SEED_SECONDS = 2.0
+MIN_SEED_QUERY = 0.05
 
 
 def allowed_inputs(ob: Obligation, seconds: float, count: int = SEEDS
@@ -378,7 +388,9 @@ def allowed_inputs(ob: Obligation, seconds: float, count: int = SEEDS
     try:
         holds = translate_assuming(ob)
         solver = Solver(Budget(min(SEED_SECONDS, seconds * SEED_SHARE)))
-        solver.per_query = solver.budget.seconds / (2 * count)
+        # A slice per query, but not so thin that a busy machine's wall clock
+        # (the backstop) ends every query: the whole stays within the budget.
+        solver.per_query = max(MIN_SEED_QUERY, solver.budget.seconds / (2 * count))
         return [("assuming", i) for i in diverse(solver, ob.params, [holds], count)]
     except Exception:  # noqa: BLE001 -- seeds are an aid; testing goes on without them
         return []

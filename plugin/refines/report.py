@@ -29,10 +29,7 @@ def render(result: Result, strict: bool = False) -> str:
                 lines.append(f"      ({ce.detail})")
         lines.append(f"  violated:            {ce.violated}"
                      + (f"  [{ce.violated_at}]" if ce.violated_at else ""))
-        if result.exact_precondition is not None:
-            lines.append(f"  exact precondition:  {result.exact_precondition}")
-            lines.append("      (the weakest condition on the inputs under which the "
-                         "function meets the spec)")
+        lines.extend(_preconditions(result))
         if result.suggested_assuming is not None:
             lines.append(f"  suggested:           assuming={result.suggested_assuming}")
         if result.precondition_note:
@@ -53,6 +50,29 @@ def render(result: Result, strict: bool = False) -> str:
     for note in result.notes:
         lines.append("  " + note.rstrip().replace("\n", "\n  "))
     return "\n".join(lines)
+
+
+def _preconditions(result: Result) -> List[str]:
+    """The exact precondition, then the simpler sufficient ones."""
+    lines = []
+    if result.exact_precondition is not None:
+        if result.precondition_scope == "translation":
+            lines.append(f"  precondition:        {result.exact_precondition}")
+            lines.append("      (the weakest condition under which the function meets the "
+                         "spec whatever its untranslated parts do: sufficient, but the "
+                         "function may meet the spec on more inputs)")
+        else:
+            lines.append(f"  exact precondition:  {result.exact_precondition}")
+            lines.append("      (the weakest condition on the inputs under which the "
+                         "function meets the spec)")
+    for text in result.sufficient_preconditions:
+        lines.append(f"  sufficient:          {text}")
+    if result.sufficient_preconditions:
+        lines.append("      (simpler, but stronger than necessary: "
+                     + ("each implies" if len(result.sufficient_preconditions) > 1
+                        else "it implies") + " the precondition above and leaves out "
+                     "some inputs that meet the spec)")
+    return lines
 
 
 def one_line(result: Result) -> str:

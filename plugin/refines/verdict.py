@@ -85,6 +85,9 @@ class Undecided:
     # More inputs that satisfy `assuming`, from the solver (n -> up to n of them),
     # when it can produce them; a narrow precondition asks for them.
     more: Optional[Callable[[int], List[Dict[str, Any]]]] = None
+    # The preconditions for a counterexample found by testing (its inputs
+    # before the call -> precondition.Preconditions), when the body was translated.
+    preconditions: Optional[Callable[[Dict[str, Any]], Any]] = None
 
 
 @dataclass
@@ -102,6 +105,12 @@ class Result:
     exact_precondition: Optional[str] = None
     suggested_assuming: Optional[str] = None
     precondition_note: Optional[str] = None  # why no precondition is shown
+    # "function": exact_precondition is exact for the function; "translation":
+    # for the translation, whose untranslated parts may do anything (then it is
+    # sufficient for the function, not necessarily the weakest).
+    precondition_scope: Optional[str] = None
+    # Simpler preconditions that imply the exact one (stronger than necessary).
+    sufficient_preconditions: List[str] = field(default_factory=list)
     message_key: Optional[str] = None  # the errors.MESSAGES row, for unknown/error/tested
     notes: List[str] = field(default_factory=list)
     testing: Optional[Testing] = None  # set when the tester ran
@@ -117,7 +126,10 @@ class Result:
             "reason": self.reason,
             "counterexample": self.counterexample.to_json() if self.counterexample else None,
             "exact_precondition": self.exact_precondition,
+            "precondition_scope": self.precondition_scope,
+            "sufficient_preconditions": list(self.sufficient_preconditions),
             "suggested_assuming": self.suggested_assuming,
+            "precondition_note": self.precondition_note,
             "testing": self.testing.to_json() if self.testing else None,
             # Assumptions, aliasing and other notes; not internal tracebacks.
             "notes": [n for n in self.notes if not n.startswith("Traceback")],

@@ -186,7 +186,7 @@ def _stages():
         (refines.replay, "run", "replay"),
         (refines.replay, "judge", "replay"),
         (refines.replay, "assuming_holds", "replay"),
-        (refines.precondition, "exact", "precondition"),
+        (refines.precondition, "compute", "precondition"),
     ]
 
 

@@ -1,0 +1,527 @@
+"""Making a condition readable, and checking the printed text against it.
+
+A condition computed by substitution or elimination is correct but hard to
+read. ``readable`` prints it as conjunctions and disjunctions of simple
+comparisons over the parameters: if-then-else terms are lifted out of
+comparisons, the formula is put in disjunctive normal form (at most
+``MAX_CUBES`` cubes), each comparison is normalised to ``<linear form> <op>
+<constant>`` with constants folded, and the solver drops empty cubes,
+literals the rest of the cube (or the context) already implies, and cubes the
+others cover. The printed Python is then parsed back with the project's own
+translator and the solver checks that it is equivalent to the condition
+wherever the context holds: text that fails the check is never returned.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from math import gcd
+from typing import Dict, List, Optional, Sequence, Tuple
+
+import z3
+
+from refines import ir
+from refines.errors import SpecError, Untranslatable
+from refines.translate import Scope, parse_expression, translate_spec
+
+MAX_CUBES = 64
+MAX_PRINTED = 400  # nodes; past this a printed condition helps nobody
+
+
+# ---------------------------------------------------------------- readable form
+
+
+@dataclass
+class Printed:
+    """A condition as checked Python text, and the cubes it prints (None when
+    the clean-up gave nothing checkable and the unsimplified form is shown)."""
+
+    text: str
+    cubes: Optional[List["Cube"]]
+
+
+def readable(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
+             solver) -> Optional[str]:
+    """Python text equivalent to ``target`` wherever ``context`` holds."""
+    out = printed(target, context, params, solver)
+    return None if out is None else out.text
+
+
+def printed(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
+            solver) -> Optional[Printed]:
+    """``readable``, with the cubes behind the text."""
+    cubes = dnf(target, False)
+    if cubes is not None:
+        cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
+        cubes = simplify_cubes(cubes, target, context, solver)
+        # Only worth its queries where the cubes reason through //, %,
+        # products or floats: linear integer bounds already read well.
+        if (len(cubes) > 1 or (cubes and len(cubes[0]) > 1)) and any(
+                _nonlinear(lit) for c in cubes for lit in c):
+            single = _simpler_literal([ir.or_(*(ir.and_(*c) for c in cubes))], context,
+                                      params, target, solver, force=True)
+            if len(single) == 1 and single[0] is not None and not isinstance(single[0], ir.Or):
+                cubes = [single]
+        cubes = [_simpler_literal(c, context, params, target, solver) for c in cubes]
+        text = print_cubes(cubes)
+        if equivalent(text, target, context, params, solver):
+            return Printed(text, cubes)
+    if ir.printed_size(target) > MAX_PRINTED:
+        return None  # too large to be read, or even printed
+    text = ir.render(target)  # unsimplified, but still Python with its meaning
+    if equivalent(text, target, context, params, solver):
+        return Printed(text, None)
+    return None
+
+
+def parse_condition(text: str, params: Sequence[ir.Var]):
+    """``text`` read back by the translator over the parameters (a
+    ``SpecValue``), or None if it cannot be read."""
+    try:
+        node = parse_expression(text)
+        env = {p.name: ir.initial(p) for p in params}
+        return translate_spec(node, env, Scope({"math": math}, [p.name for p in params]),
+                              "check")
+    except (SyntaxError, SpecError, Untranslatable, Exception):  # noqa: BLE001
+        return None
+
+
+def equivalent(text: str, target: ir.Term, context: ir.Term,
+               params: Sequence[ir.Var], solver) -> bool:
+    """Re-read ``text`` with the translator; the solver checks it never raises
+    and equals ``target`` wherever ``context`` holds."""
+    value = parse_condition(text, params)
+    if value is None:
+        return False
+    differs = ir.or_(ir.not_(value.defined),
+                     ir.not_(ir.cmp("==", value.holds, target)))
+    status, _, _ = solver.check(context, differs)
+    return status == z3.unsat
+
+
+def implies(text: str, target: ir.Term, context: ir.Term,
+            params: Sequence[ir.Var], solver) -> bool:
+    """The solver checks that ``text`` never raises where ``context`` holds,
+    and that it implies ``target`` there."""
+    value = parse_condition(text, params)
+    if value is None:
+        return False
+    bad = ir.or_(ir.not_(value.defined), ir.and_(value.holds, ir.not_(target)))
+    status, _, _ = solver.check(context, bad)
+    return status == z3.unsat
+
+
+def mentions(text: str, name: str) -> bool:
+    """Whether ``text`` uses the name ``name`` (not as an attribute)."""
+    return re.search(rf"(?<![\w.]){re.escape(name)}(?!\w)", text) is not None
+
+
+# ---------------------------------------------------------------- DNF with ite lifting
+
+Cube = List[ir.Term]
+
+
+def dnf(t: ir.Term, negate: bool) -> Optional[List[Cube]]:
+    """Disjunctive normal form of ``t`` (or of ``not t``); None if too large."""
+    if isinstance(t, ir.Const):
+        return [[]] if bool(t.value) != negate else []
+    if isinstance(t, ir.Not):
+        return dnf(t.arg, not negate)
+    if isinstance(t, (ir.And, ir.Or)):
+        conj = isinstance(t, ir.And) != negate
+        parts = [dnf(a, negate) for a in t.args]
+        if any(p is None for p in parts):
+            return None
+        return _product(parts) if conj else _concat(parts)
+    if isinstance(t, ir.Ite):
+        # (c and a) or (not c and b), with the negation pushed into a and b.
+        left = _product([dnf(t.cond, False), dnf(t.then, negate)])
+        right = _product([dnf(t.cond, True), dnf(t.orelse, negate)])
+        return _concat([left, right])
+    if isinstance(t, (ir.Var, ir.Op)) and t.sort == ir.BOOL:
+        return [[ir.not_(t) if negate else t]]
+    if isinstance(t, ir.Cmp):
+        if t.left.sort == ir.BOOL and t.right.sort == ir.BOOL:
+            same = ir.or_(ir.and_(t.left, t.right),
+                          ir.and_(ir.not_(t.left), ir.not_(t.right)))
+            return dnf(same, negate != (t.op == "!="))
+        if negate and ir.FLOAT in (t.left.sort, t.right.sort) and t.op not in ("==", "!="):
+            return [[ir.Not(t)]]  # with NaN, not (x < y) is not x >= y
+        op = ir.NEGATED[t.op] if negate else t.op
+        out: List[Cube] = []
+        lcases, rcases = cases(t.left), cases(t.right)
+        if lcases is None or rcases is None:
+            return None
+        for lcube, lterm in lcases:
+            for rcube, rterm in rcases:
+                out.append(lcube + rcube + [ir.cmp(op, lterm, rterm)])
+                if len(out) > MAX_CUBES:
+                    return None
+        return out
+    return None
+
+
+def cases(t: ir.Term) -> Optional[List[Tuple[Cube, ir.Term]]]:
+    """``t`` as a list of (condition cube, if-free term) pairs."""
+    if isinstance(t, (ir.Var, ir.Const)):
+        return [([], t)]
+    if isinstance(t, ir.Ite):
+        out = []
+        for cond_cubes, branch in ((dnf(t.cond, False), t.then), (dnf(t.cond, True), t.orelse)):
+            sub = cases(branch)
+            if cond_cubes is None or sub is None:
+                return None
+            out.extend((c + sc, st) for c in cond_cubes for sc, st in sub)
+        return out if len(out) <= MAX_CUBES else None
+    if isinstance(t, ir.ToInt):
+        a, b = dnf(t.arg, False), dnf(t.arg, True)
+        if a is None or b is None:
+            return None
+        return [(c, ir.const(1)) for c in a] + [(c, ir.const(0)) for c in b]
+    if isinstance(t, ir.Neg):
+        sub = cases(t.arg)
+        return None if sub is None else [(c, ir.neg(x)) for c, x in sub]
+    if isinstance(t, ir.Arith):
+        left, right = cases(t.left), cases(t.right)
+        if left is None or right is None or len(left) * len(right) > MAX_CUBES:
+            return None
+        return [(lc + rc, ir.arith(t.op, lt, rt)) for lc, lt in left for rc, rt in right]
+    if isinstance(t, ir.Op):
+        combos: List[Tuple[Cube, list]] = [([], [])]
+        for a in t.args:
+            sub = cases(a)
+            if sub is None or len(combos) * len(sub) > MAX_CUBES:
+                return None
+            combos = [(c + sc, args + [st]) for c, args in combos for sc, st in sub]
+        return [(c, ir.Op(t.name, tuple(args), t.sort)) for c, args in combos]
+    return None
+
+
+def _product(parts: List[Optional[List[Cube]]]) -> Optional[List[Cube]]:
+    acc: List[Cube] = [[]]
+    for p in parts:
+        if p is None:
+            return None
+        acc = [a + b for a in acc for b in p]
+        if len(acc) > MAX_CUBES:
+            return None
+    return acc
+
+
+def _concat(parts: List[Optional[List[Cube]]]) -> Optional[List[Cube]]:
+    out: List[Cube] = []
+    for p in parts:
+        if p is None:
+            return None
+        out.extend(p)
+    return out if len(out) <= MAX_CUBES else None
+
+
+# ---------------------------------------------------------------- literals
+
+
+def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
+    """``t`` as {atom text: coefficient} plus a constant; non-linear parts are atoms."""
+    if isinstance(t, ir.Const):
+        return {}, int(t.value)
+    if isinstance(t, ir.Neg):
+        c, k = linear(t.arg, atoms)
+        return {a: -v for a, v in c.items()}, -k
+    if isinstance(t, ir.Arith) and t.op in ("+", "-"):
+        c1, k1 = linear(t.left, atoms)
+        c2, k2 = linear(t.right, atoms)
+        sign = 1 if t.op == "+" else -1
+        out = dict(c1)
+        for a, v in c2.items():
+            out[a] = out.get(a, 0) + sign * v
+        return {a: v for a, v in out.items() if v}, k1 + sign * k2
+    if isinstance(t, ir.Arith) and t.op == "*":
+        for const_side, other in ((t.left, t.right), (t.right, t.left)):
+            if isinstance(const_side, ir.Const):
+                c, k = linear(other, atoms)
+                m = int(const_side.value)
+                return {a: v * m for a, v in c.items() if v * m}, k * m
+    # A non-linear part is an atom; its operands are normalised in turn.
+    if isinstance(t, ir.Arith):
+        t = ir.arith(t.op, normal_term(t.left), normal_term(t.right))
+    key = ir.render(t)
+    atoms[key] = t
+    return {key: 1}, 0
+
+
+def normal_term(t: ir.Term) -> ir.Term:
+    """Fold the linear parts of a term: ``(x + 2 - 1) // 2`` -> ``(x + 1) // 2``."""
+    if isinstance(t, (ir.Var, ir.Const)):
+        return t
+    atoms: Dict[str, ir.Term] = {}
+    coeffs, k = linear(t, atoms)
+    return _rebuild(coeffs, k, atoms, sorted(coeffs))
+
+
+def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
+             names: Sequence[str]) -> ir.Term:
+    lhs: Optional[ir.Term] = None
+    for a in names:
+        v = coeffs[a]
+        term = atoms[a] if abs(v) == 1 else ir.arith("*", ir.const(abs(v)), atoms[a])
+        if lhs is None:
+            lhs = term if v > 0 else ir.neg(term)
+        else:
+            lhs = ir.arith("+" if v > 0 else "-", lhs, term)
+    if lhs is None:
+        return ir.const(k)
+    if k > 0:
+        return ir.arith("+", lhs, ir.const(k))
+    if k < 0:
+        return ir.arith("-", lhs, ir.const(-k))
+    return lhs
+
+
+def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
+    """A comparison as ``<linear form> <op> <constant>``, constants folded."""
+    if not isinstance(lit, ir.Cmp) or lit.left.sort != ir.INT or lit.right.sort != ir.INT:
+        return lit  # only integer comparisons are rearranged: float ones round
+    atoms: Dict[str, ir.Term] = {}
+    c1, k1 = linear(lit.left, atoms)
+    c2, k2 = linear(lit.right, atoms)
+    coeffs = dict(c1)
+    for a, v in c2.items():
+        coeffs[a] = coeffs.get(a, 0) - v
+    coeffs = {a: v for a, v in coeffs.items() if v}
+    k = k2 - k1  # sum(coeffs * atoms) <op> k
+    op = lit.op
+    if not coeffs:
+        return ir.cmp(op, ir.const(0), ir.const(k))
+    names = sorted(coeffs, key=lambda a: (order.get(a, len(order)), a))
+    if coeffs[names[0]] < 0:  # lead with a positive coefficient
+        coeffs = {a: -v for a, v in coeffs.items()}
+        k, op = -k, ir.FLIPPED[op]
+    g = 0
+    for v in coeffs.values():
+        g = gcd(g, abs(v))
+    if g > 1:  # integer tightening: 2*x > 5  <=>  x >= 3
+        if op in ("==", "!="):
+            if k % g:
+                return ir.const(op == "!=")
+            k //= g
+        elif k % g and op in (">", ">="):
+            op, k = ">=", -((-k) // g)  # the least integer above k / g
+        elif k % g:
+            op, k = "<=", k // g  # the greatest integer below k / g
+        else:
+            k //= g
+        coeffs = {a: v // g for a, v in coeffs.items()}
+    if len(names) == 1 and coeffs[names[0]] == 1:
+        bounded = _floordiv_bounds(atoms[names[0]], op, k, order)
+        if bounded is not None:
+            return bounded
+    if k == 0 and len(names) == 2 and coeffs[names[1]] == -1 and coeffs[names[0]] == 1:
+        return ir.Cmp(op, atoms[names[0]], atoms[names[1]])  # x - y == 0  ->  x == y
+    # Over the integers x > -1 is x >= 0: compare with zero where one step does it.
+    if op == ">" and k == -1:
+        op, k = ">=", 0
+    elif op == "<" and k == 1:
+        op, k = "<=", 0
+    return ir.Cmp(op, _rebuild(coeffs, 0, atoms, names), ir.const(k))
+
+
+def _floordiv_bounds(atom: ir.Term, op: str, k: int, order: Dict[str, int]):
+    """``e // m <op> k`` for a constant m > 0, as bounds on ``e``:
+    e // m >= k  <=>  e >= k*m   and   e // m <= k  <=>  e <= k*m + m - 1."""
+    if not (isinstance(atom, ir.Arith) and atom.op == "//"
+            and isinstance(atom.right, ir.Const) and atom.right.value > 0):
+        return None
+    e, m = atom.left, int(atom.right.value)
+    low, high = k * m, k * m + m - 1
+    bounds = {">=": [(">=", low)], ">": [(">=", high + 1)], "<=": [("<=", high)],
+              "<": [("<=", low - 1)], "==": [(">=", low), ("<=", high)]}.get(op)
+    if bounds is None:
+        return None
+    return ir.and_(*(normal_literal(ir.cmp(o, e, ir.const(b)), order) for o, b in bounds))
+
+
+def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
+    order = {p.name: i for i, p in enumerate(params)}
+    out: Cube = []
+    for lit in cube:
+        n = normal_literal(lit, order)
+        if ir.is_false(n):
+            return None
+        for part in (n.args if isinstance(n, ir.And) else (n,)):
+            if ir.is_true(part) or any(ir.render(part) == ir.render(o) for o in out):
+                continue
+            out.append(part)
+    # Literals about earlier parameters first, as the signature reads.
+    out.sort(key=lambda lit: _first_param(lit, order))
+    return out
+
+
+def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
+    stack, best = [t], len(order)
+    while stack:
+        n = stack.pop()
+        if isinstance(n, ir.Var):
+            best = min(best, order.get(n.name, len(order)))
+        stack.extend(ir.children(n))
+    return best
+
+
+# ---------------------------------------------------------------- solver clean-up
+
+
+def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
+                   solver) -> List[Cube]:
+    """Drop empty cubes, redundant literals and subsumed cubes, keeping
+    ``OR(cubes)`` equivalent to ``target`` under ``context``."""
+    kept = []
+    for cube in cubes:
+        status, _, _ = solver.check(context, *cube)
+        if status != z3.unsat:
+            kept.append(cube)
+    cubes = kept
+    not_target = ir.not_(target)
+    for i, cube in enumerate(cubes):
+        lits = list(cube)
+        # Weaken the cube by dropping a literal while it still implies the
+        # target; that also drops literals the context implies. The largest
+        # literals go first: `len(s[0]) == 1` implies `len(s) > 0` in the
+        # model, but only the latter is safe to print (s[0] raises on "").
+        for lit in sorted(cube, key=ir.printed_size, reverse=True):
+            trial = [x for x in lits if x is not lit]
+            status, _, _ = solver.check(context, *trial, not_target)
+            if status == z3.unsat:
+                lits = trial
+        cubes[i] = lits
+    result: List[Cube] = []
+    for i, cube in enumerate(cubes):
+        others = result + cubes[i + 1:]
+        covered = ir.or_(*(ir.and_(*c) for c in others)) if others else ir.FALSE
+        status, _, _ = solver.check(context, *cube, ir.not_(covered))
+        if status != z3.unsat:
+            result.append(cube)
+    return result
+
+
+def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],
+                     target: ir.Term, solver, force: bool = False) -> Cube:
+    """Replace a cube (or with ``force``, a whole condition) that reasons
+    through ``//``, ``%``, products or floats by one simple condition on one
+    parameter -- a comparison with a constant, or for a float ``not
+    math.isnan(x)`` and the like -- when the solver shows the two agree under
+    ``context`` (``0 <= x % y < y`` is ``y > 0``)."""
+    if not force and not any(_nonlinear(lit) for lit in cube):
+        return cube
+    if not force and len(cube) < 2 and ir.printed_size(cube[0]) <= 5:
+        return cube  # already as simple as a candidate
+    whole = ir.and_(*cube)
+    for candidate in _candidates(params, target):
+        status, _, _ = solver.check(context, ir.not_(ir.cmp("==", whole, candidate)))
+        if status == z3.unsat:
+            return [candidate]
+    return cube
+
+
+def _candidates(params: Sequence[ir.Var], target: ir.Term):
+    ints = sorted({c for c in _constants(target) if isinstance(c, int)} | {0, 1, -1},
+                  key=lambda c: (abs(c), c))[:6]
+    for p in params:
+        if p.optional:
+            none = ir.initial(p).none
+            yield ir.Not(none)
+            yield none
+        if p.sort == ir.INT:
+            for c in ints:
+                for op in (">", ">=", "<", "<=", "==", "!="):
+                    yield ir.Cmp(op, p, ir.const(c))
+        elif p.sort == ir.FLOAT:
+            for name in ("isnan", "isfinite", "isinf"):
+                test = ir.op(name, p, sort=ir.BOOL)
+                yield ir.Not(test)
+                yield test
+        elif p.sort == ir.BOOL:
+            yield p
+            yield ir.Not(p)
+        elif p.sort == ir.STR:
+            length = ir.str_len(p)
+            for c in (c for c in ints if c >= 0):
+                for op in (">", ">=", "<", "<=", "==", "!="):
+                    yield ir.Cmp(op, length, ir.const(c))
+
+
+def _nonlinear(t: ir.Term) -> bool:
+    stack = [t]
+    while stack:
+        n = stack.pop()
+        if n.sort == ir.FLOAT or isinstance(n, ir.Op):
+            return True
+        if isinstance(n, ir.Arith) and (n.op in ("//", "%") or (
+                n.op == "*" and not isinstance(n.left, ir.Const)
+                and not isinstance(n.right, ir.Const))):
+            return True
+        stack.extend(ir.children(n))
+    return False
+
+
+def _constants(t: ir.Term) -> set:
+    out, stack, seen = set(), [t], set()
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, ir.Const) and n.sort == ir.INT and abs(n.value) < 10 ** 6:
+            out.add(int(n.value))
+        stack.extend(ir.children(n))
+    return out
+
+
+# ---------------------------------------------------------------- printing
+
+
+def print_cubes(cubes: List[Cube]) -> str:
+    if not cubes:
+        return "False"
+    if any(not c for c in cubes):
+        return "True"
+    texts = [print_cube(c) for c in cubes]
+    if len(texts) == 1:
+        return texts[0]
+    return " or ".join(f"({t})" if " and " in t else t for t in texts)
+
+
+def print_cube(cube: Cube) -> str:
+    """Literals joined by ``and``; bounds on one expression become a chain."""
+    lits = list(cube)
+    out = []
+    used = set()
+    for i, a in enumerate(lits):
+        if i in used:
+            continue
+        chained = None
+        if isinstance(a, ir.Cmp) and a.op in (">", ">=") and isinstance(a.right, ir.Const):
+            for j in range(i + 1, len(lits)):
+                b = lits[j]
+                if (j not in used and isinstance(b, ir.Cmp) and b.op in ("<", "<=")
+                        and isinstance(b.right, ir.Const)
+                        and ir.render(b.left) == ir.render(a.left)):
+                    lower_op = "<" if a.op == ">" else "<="
+                    chained = (f"{ir.render(a.right)} {lower_op} {ir.render(a.left)} "
+                               f"{b.op} {ir.render(b.right)}")
+                    used.add(j)
+                    break
+        if isinstance(a, ir.Cmp) and a.op in ("<", "<=") and chained is None \
+                and isinstance(a.right, ir.Const):
+            for j in range(i + 1, len(lits)):
+                b = lits[j]
+                if (j not in used and isinstance(b, ir.Cmp) and b.op in (">", ">=")
+                        and isinstance(b.right, ir.Const)
+                        and ir.render(b.left) == ir.render(a.left)):
+                    lower_op = "<" if b.op == ">" else "<="
+                    chained = (f"{ir.render(b.right)} {lower_op} {ir.render(a.left)} "
+                               f"{a.op} {ir.render(a.right)}")
+                    used.add(j)
+                    break
+        out.append(chained or ir.render(a))
+    return " and ".join(out)

@@ -1,0 +1,347 @@
+"""Simpler sufficient preconditions: conditions that imply the exact one.
+
+When the exact precondition is complicated (several cases, or reasoning
+through ``//``, ``%``, products or floats), one or two simpler conditions
+often say nearly as much: one case of it, or an interval on one parameter.
+They are *stronger than necessary* -- every input they allow meets the spec,
+but some inputs that meet it are left out -- and the report says so.
+
+Candidates:
+
+* each case (cube) of the printed exact precondition, when it has several;
+* for each parameter, the widest interval around a point where the spec is
+  met, on the parameter itself (an int, or a float over the constants in the
+  condition) or on its length (a str or a list), found by galloping and
+  bisection with one solver query per step;
+* a single test: a bool parameter or its negation, ``x is not None``.
+
+Each candidate is kept only if the solver shows that it implies the exact
+precondition (read back from its printed text, so it cannot raise either),
+that it is not equivalent to it, and that some input the current
+``assuming`` allows satisfies it. They are ranked by how many of a sample of
+inputs meeting the spec (diverse solver models) they allow, then by length.
+"""
+
+from __future__ import annotations
+
+import math
+import struct
+from typing import Callable, List, Optional, Sequence, Tuple
+
+import z3
+
+from refines import ir
+from refines.readable import Printed, implies, print_cube, print_cubes
+
+MAX_SHOWN = 2
+# Parameters whose intervals are searched, and seed points tried for each.
+MAX_PARAMS = 6
+MAX_SEEDS = 6
+# Models of "assuming and the exact precondition" that rank the candidates.
+SAMPLE = 12
+# A precondition this long or longer is complicated even if linear.
+LONG_TEXT = 60
+# The share of the obligation's budget the search may spend.
+SHARE = 0.25
+
+
+def complicated(shown: Printed) -> bool:
+    if shown.cubes is None:
+        return True
+    if len(shown.cubes) > 1 or len(shown.text) >= LONG_TEXT:
+        return True
+    text = shown.text
+    return any(op in text for op in ("//", "%", "*", "math.", " / "))
+
+
+def alternatives(target: ir.Term, shown: Printed, assuming: ir.Term,
+                 params: Sequence[ir.Var], solver) -> List[str]:
+    """Up to ``MAX_SHOWN`` checked texts, each implying ``target``."""
+    if not complicated(shown) or shown.text in ("True", "False"):
+        return []
+    floor = solver.budget.units - int(SHARE * solver.budget.seconds * _units_per_second())
+
+    def affordable() -> bool:
+        return solver.budget.units > floor and solver.budget.remaining() > 0
+
+    texts: List[str] = []
+    if shown.cubes and len(shown.cubes) > 1:
+        texts.extend(print_cube(c) for c in shown.cubes)
+    for p in list(params)[:MAX_PARAMS]:
+        if not affordable():
+            break
+        interval = _interval(p, target, assuming, solver, affordable)
+        if interval is not None:
+            texts.append(interval)
+    texts.extend(_single_tests(params, target, solver, affordable))
+    kept: List[str] = []
+    for text in dict.fromkeys(texts):
+        if not affordable():
+            break
+        if text == shown.text or not implies(text, target, ir.TRUE, params, solver):
+            continue
+        from refines.readable import parse_condition
+
+        value = parse_condition(text, params)
+        if solver.check(assuming, value.holds)[0] != z3.sat:
+            continue  # nothing the current assuming allows: no help
+        if solver.check(target, ir.not_(value.holds))[0] == z3.unsat:
+            continue  # equivalent: it is the exact one, in other words
+        kept.append(text)
+    return _ranked(kept, target, assuming, params, solver)[:MAX_SHOWN]
+
+
+def _units_per_second() -> int:
+    from refines.prove import RLIMIT_PER_SECOND
+
+    return RLIMIT_PER_SECOND
+
+
+def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
+            params: Sequence[ir.Var], solver) -> List[str]:
+    """By how many sampled inputs that meet the spec each allows, then length;
+    one of two equivalent texts is dropped."""
+    if len(texts) <= 1:
+        return texts
+    from refines.prove import diverse
+
+    try:
+        sample = diverse(solver, params, [assuming, target], SAMPLE)
+    except Exception:  # noqa: BLE001 -- ranking is an aid
+        sample = []
+    scope = {"math": math}
+
+    def covered(text: str) -> int:
+        n = 0
+        for inputs in sample:
+            try:
+                n += bool(eval(text, scope, dict(inputs)))  # noqa: S307 -- checked text
+            except Exception:  # noqa: BLE001
+                pass
+        return n
+
+    order = sorted(texts, key=lambda t: (-covered(t), len(t), t))
+    out: List[str] = []
+    from refines.readable import parse_condition
+
+    for text in order:
+        value = parse_condition(text, params)
+        if any(solver.check(ir.not_(ir.cmp("==", value.holds,
+                                           parse_condition(o, params).holds)))[0] == z3.unsat
+               for o in out):
+            continue
+        out.append(text)
+    return out
+
+
+# ---------------------------------------------------------------- intervals
+
+
+def _interval(p: ir.Var, target: ir.Term, assuming: ir.Term, solver,
+              affordable: Callable[[], bool]) -> Optional[str]:
+    """The widest interval on ``p`` (or on its length) around a point where
+    it implies ``target`` for every value of the other parameters."""
+    if p.optional:
+        return None
+    if p.sort == ir.INT:
+        measure, domain = p, _Ints(None)
+    elif p.sort == ir.STR or (p.sort == ir.REF and p.kind.startswith("list:")):
+        measure, domain = _length(p), _Ints(0)
+    elif p.sort == ir.FLOAT:
+        measure, domain = p, _Floats(_float_constants(target))
+    else:
+        return None
+
+    def holds_on(lo, hi) -> bool:
+        if not affordable():
+            return False
+        parts = [ir.not_(target)]
+        if lo is not None:
+            parts.append(ir.cmp(">=", measure, domain.term(lo)))
+        if hi is not None:
+            parts.append(ir.cmp("<=", measure, domain.term(hi)))
+        return solver.check(*parts)[0] == z3.unsat
+
+    seed = None
+    for v in domain.seeds(_seed_values(measure, target, assuming, solver)):
+        if holds_on(v, v):
+            seed = v
+            break
+    if seed is None:
+        return None
+    hi = _widest(seed, domain.up, domain.top, lambda k: holds_on(seed, k))
+    lo = _widest(seed, domain.down, domain.bottom, lambda k: holds_on(k, seed))
+    lo = None if lo == domain.bottom else lo
+    hi = None if hi == domain.top else hi
+    if lo is None and hi is None:
+        if p.sort == ir.FLOAT:  # between the infinities: any float but a NaN
+            return f"not math.isnan({p.name})"
+        return None  # no bound at all: the target holds everywhere
+    return domain.text(ir.render(measure), lo, hi, _int_constants(target))
+
+
+def _widest(seed, step: Callable, end, ok: Callable) -> Optional[object]:
+    """The farthest point from ``seed`` (moving by ``step(point, n)``) for
+    which ``ok`` holds, given that it holds at ``seed``; ``end`` (None: no
+    end) when it holds there."""
+    if ok(end):
+        return end
+    good, n = seed, 1
+    bad = None
+    for _ in range(64):  # gallop
+        probe = step(seed, n)
+        if probe is None:
+            break
+        if ok(probe):
+            good, n = probe, n * 2
+        else:
+            bad = probe
+            break
+    if bad is None:
+        return good
+    lo_n, hi_n = n // 2, n  # good at lo_n steps (0: the seed), bad at hi_n
+    while hi_n - lo_n > 1:  # bisect
+        mid = (lo_n + hi_n) // 2
+        probe = step(seed, mid)
+        if ok(probe):
+            lo_n, good = mid, probe
+        else:
+            hi_n = mid
+    return good
+
+
+class _Ints:
+    """Integers (from ``bottom`` up, when given): the interval's points."""
+
+    top = None
+
+    def __init__(self, bottom: Optional[int]) -> None:
+        self.bottom = bottom
+
+    def term(self, k: int) -> ir.Term:
+        return ir.const(k)
+
+    def up(self, k: int, n: int) -> int:
+        return k + n
+
+    def down(self, k: int, n: int) -> Optional[int]:
+        out = k - n
+        return out if self.bottom is None or out >= self.bottom else self.bottom
+
+    def seeds(self, values: List[int]) -> List[int]:
+        out = [v for v in values if self.bottom is None or v >= self.bottom]
+        return list(dict.fromkeys(out))[:MAX_SEEDS]
+
+    def text(self, name: str, lo: Optional[int], hi: Optional[int], constants: set) -> str:
+        # Keep the condition's own constants where a strict bound shows them:
+        # `age < 14` rather than `age <= 13`.
+        if lo is None and hi is not None and hi == self.bottom:
+            lo = hi  # a length of at most 0 is a length of 0
+        if lo is not None and hi is not None:
+            if lo == hi:
+                return f"{name} == {lo}"
+            return f"{lo} <= {name} <= {hi}"
+        if lo is not None:
+            return f"{name} > {lo - 1}" if lo - 1 in constants and lo - 1 != -1 else \
+                f"{name} >= {lo}"
+        return f"{name} < {hi + 1}" if hi + 1 in constants and hi + 1 != 1 else \
+            f"{name} <= {hi}"
+
+
+class _Floats:
+    """Floats: the interval's ends are among the constants of the condition,
+    their neighbours, 0.0, 1.0 and the infinities (sorted), since a search
+    over every double would cost a query per bit."""
+
+    def __init__(self, constants: List[float]) -> None:
+        points = {0.0, 1.0, -1.0, math.inf, -math.inf}
+        for c in constants:
+            if c == c:
+                points.update({c, math.nextafter(c, math.inf), math.nextafter(c, -math.inf)})
+        self.points = sorted(points)
+        self.bottom, self.top = 0, len(self.points) - 1
+
+    def term(self, i: int) -> ir.Term:
+        return ir.const(self.points[i])
+
+    def up(self, i: int, n: int) -> Optional[int]:
+        return min(i + n, self.top)
+
+    def down(self, i: int, n: int) -> Optional[int]:
+        return max(i - n, self.bottom)
+
+    def seeds(self, values: List[float]) -> List[int]:
+        out = []
+        for v in values:
+            if isinstance(v, float) and v == v:
+                out.append(min(range(len(self.points)), key=lambda i: abs(self.points[i] - v)
+                               if math.isfinite(self.points[i] - v) else math.inf))
+        out.extend(i for i, c in enumerate(self.points) if math.isfinite(c))
+        return list(dict.fromkeys(out))[:MAX_SEEDS]
+
+    def text(self, name: str, lo: Optional[int], hi: Optional[int], constants: set) -> str:
+        show = lambda i: ir.render(ir.const(self.points[i]))  # noqa: E731
+        if lo is not None and hi is not None:
+            return f"{show(lo)} <= {name} <= {show(hi)}"
+        if lo is not None:
+            return f"{name} >= {show(lo)}"
+        return f"{name} <= {show(hi)}"
+
+
+def _length(p: ir.Var) -> ir.Term:
+    v = ir.initial(p)
+    if isinstance(v, ir.Ref):
+        from refines import heap
+
+        items = ir.select(heap.initial_field(heap.field_key(p.kind)), v.ref)
+        return ir.op("len", items, sort=ir.INT)
+    return ir.str_len(p)
+
+
+def _seed_values(measure: ir.Term, target: ir.Term, assuming: ir.Term, solver) -> list:
+    """Points to start from: the measure in a model of ``assuming and
+    target`` (then of ``target``), and the constants of the condition."""
+    out = []
+    for terms in ((assuming, target), (target,)):
+        status, model, _ = solver.check(*terms)
+        if status == z3.sat:
+            out.append(solver.value(model, measure))
+    if measure.sort == ir.INT:
+        consts = sorted(_int_constants(target) | {0, 1}, key=lambda c: (abs(c), c))
+        for c in consts:
+            out.extend((c, c - 1, c + 1))
+    return out
+
+
+def _int_constants(t: ir.Term) -> set:
+    return {c for c in _constants(t) if isinstance(c, int) and not isinstance(c, bool)}
+
+
+def _float_constants(t: ir.Term) -> List[float]:
+    return sorted({c for c in _constants(t) if isinstance(c, float)})
+
+
+def _constants(t: ir.Term) -> set:
+    out, stack, seen = set(), [t], set()
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, ir.Const) and n.sort in (ir.INT, ir.FLOAT):
+            if n.sort == ir.FLOAT or abs(n.value) < 10 ** 6:
+                out.add(n.value)
+        stack.extend(ir.children(n))
+    return out
+
+
+def _single_tests(params: Sequence[ir.Var], target: ir.Term, solver,
+                  affordable: Callable[[], bool]) -> List[str]:
+    """One-literal candidates: a bool parameter, ``x is not None``."""
+    out = []
+    for p in params:
+        if p.optional:
+            out.extend([f"{p.name} is not None", f"{p.name} is None"])
+        elif p.sort == ir.BOOL:
+            out.extend([p.name, f"not {p.name}"])
+    return out
