@@ -60,9 +60,9 @@ def printed(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
         # products or floats: linear integer bounds already read well.
         if (len(cubes) > 1 or (cubes and len(cubes[0]) > 1)) and any(
                 _nonlinear(lit) for c in cubes for lit in c):
-            single = _simpler_literal([ir.or_(*(ir.and_(*c) for c in cubes))], context,
-                                      params, target, solver, force=True)
-            if len(single) == 1 and single[0] is not None and not isinstance(single[0], ir.Or):
+            whole = ir.or_(*(ir.and_(*c) for c in cubes))
+            single = _simpler_literal([whole], context, params, target, solver, force=True)
+            if single[0] is not whole:
                 cubes = [single]
         cubes = [_simpler_literal(c, context, params, target, solver) for c in cubes]
         text = print_cubes(cubes)
@@ -353,9 +353,33 @@ def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
             if ir.is_true(part) or any(ir.render(part) == ir.render(o) for o in out):
                 continue
             out.append(part)
-    # Literals about earlier parameters first, as the signature reads.
-    out.sort(key=lambda lit: _first_param(lit, order))
+    # Literals about earlier parameters first, as the signature reads; one that
+    # can raise (`x // y`, `s[0]`) after the others, which `and` evaluates
+    # first in Python and which may be what keeps it from raising (`y != 0`).
+    out.sort(key=lambda lit: (_partial(lit), _first_param(lit, order)))
     return out
+
+
+# Ops that raise on some arguments (an index out of range, a division by zero).
+_PARTIAL_OPS = {"getitem", "nth", "int_truediv", "sqrt", "trunc", "floor", "ceil",
+                "str_of_int"}
+
+
+def _partial(t: ir.Term) -> bool:
+    """Whether evaluating ``t`` in Python can raise."""
+    stack, seen = [t], set()
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, ir.Arith) and n.op in ("//", "%", "/") and not (
+                isinstance(n.right, ir.Const) and n.right.value != 0):
+            return True
+        if isinstance(n, ir.Op) and n.name in _PARTIAL_OPS:
+            return True
+        stack.extend(ir.children(n))
+    return False
 
 
 def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
@@ -492,36 +516,61 @@ def print_cubes(cubes: List[Cube]) -> str:
 
 
 def print_cube(cube: Cube) -> str:
-    """Literals joined by ``and``; bounds on one expression become a chain."""
+    """Literals joined by ``and``; a lower and an upper bound on one
+    expression become a chain (``0 <= x <= 24``, ``lo <= (lo + hi) / 2.0 <= hi``),
+    which Python reads exactly as the two comparisons."""
     lits = list(cube)
+    views = [_bound_views(lit) for lit in lits]
     out = []
     used = set()
     for i, a in enumerate(lits):
         if i in used:
             continue
         chained = None
-        if isinstance(a, ir.Cmp) and a.op in (">", ">=") and isinstance(a.right, ir.Const):
-            for j in range(i + 1, len(lits)):
-                b = lits[j]
-                if (j not in used and isinstance(b, ir.Cmp) and b.op in ("<", "<=")
-                        and isinstance(b.right, ir.Const)
-                        and ir.render(b.left) == ir.render(a.left)):
-                    lower_op = "<" if a.op == ">" else "<="
-                    chained = (f"{ir.render(a.right)} {lower_op} {ir.render(a.left)} "
-                               f"{b.op} {ir.render(b.right)}")
-                    used.add(j)
-                    break
-        if isinstance(a, ir.Cmp) and a.op in ("<", "<=") and chained is None \
-                and isinstance(a.right, ir.Const):
-            for j in range(i + 1, len(lits)):
-                b = lits[j]
-                if (j not in used and isinstance(b, ir.Cmp) and b.op in (">", ">=")
-                        and isinstance(b.right, ir.Const)
-                        and ir.render(b.left) == ir.render(a.left)):
-                    lower_op = "<" if b.op == ">" else "<="
-                    chained = (f"{ir.render(b.right)} {lower_op} {ir.render(a.left)} "
-                               f"{a.op} {ir.render(a.right)}")
-                    used.add(j)
-                    break
+        for j in range(i + 1, len(lits)):
+            if j in used or chained is not None:
+                continue
+            for subject, side, bound, op in views[i]:
+                match = [v for v in views[j] if v[0] == subject and v[1] != side]
+                if not match:
+                    continue
+                other = match[0]
+                low, high = ((bound, op), (other[2], other[3])) if side == "lower" \
+                    else ((other[2], other[3]), (bound, op))
+                chained = f"{low[0]} {low[1]} {subject} {high[1]} {high[0]}"
+                used.add(j)
+                break
         out.append(chained or ir.render(a))
     return " and ".join(out)
+
+
+def _bound_views(lit: ir.Term) -> list:
+    """``lit`` read as bounds: (subject, "lower" or "upper", bound, op), the op
+    as it reads left to right in a chain (``<`` or ``<=``). Constants are never
+    the subject, and a constant bound is preferred (listed first)."""
+    if not isinstance(lit, ir.Cmp) or lit.op in ("==", "!="):
+        return []
+    strength = _PRINT_PREC
+    left, right = ir._render(lit.left, strength, {}), ir._render(lit.right, strength, {})
+    op = lit.op if lit.op in ("<", "<=") else {">": "<", ">=": "<="}[lit.op]
+    small, big = (left, right) if lit.op in ("<", "<=") else (right, left)
+    small_t, big_t = (lit.left, lit.right) if lit.op in ("<", "<=") else (lit.right, lit.left)
+    views = []
+    if not isinstance(big_t, ir.Const):
+        views.append((big, "lower", small, op))  # small < big: a lower bound of big
+    if not isinstance(small_t, ir.Const):
+        views.append((small, "upper", big, op))
+    views.sort(key=lambda v: not _is_constant_text(v[2]))
+    return views
+
+
+# Operands of a comparison print with the parentheses a chain needs.
+_PRINT_PREC = ir._PREC["cmp"] + 1
+
+
+def _is_constant_text(text: str) -> bool:
+    try:
+        float(text)
+        return True
+    except ValueError:
+        return False
