@@ -41,7 +41,7 @@ def test_pop_of_an_empty_list_raises_index_error(tmp_path):
     assert r.verdict == REFUTED
     assert r.counterexample.call == "last(queue=[])"
     assert r.counterexample.outcome == {"raised": "IndexError"}
-    assert r.exact_precondition == "len(queue) >= 1"
+    assert r.exact_precondition == "len(queue) > 0"
 
 
 def test_item_assignment_with_a_negative_index(tmp_path):

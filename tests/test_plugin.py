@@ -141,7 +141,7 @@ def test_json_report_follows_the_schema(project):
     keys = {"nodeid", "function", "path", "line", "verdict", "seconds", "reason",
             "counterexample", "exact_precondition", "precondition_scope",
             "sufficient_preconditions", "suggested_assuming", "precondition_note", "notes",
-            "testing"}
+            "testing", "explanation"}
     assert all(set(r) == keys for r in data["results"])
     by_id = {r["nodeid"]: r for r in data["results"]}
     shifted = by_id["specs.py::shifted"]

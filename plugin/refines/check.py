@@ -19,14 +19,17 @@ from refines.plugin import DEFAULT_EXAMPLES
 from refines.verdict import ERROR, Result, Undecided
 
 
-def check(ob, timeout: float, examples: int = DEFAULT_EXAMPLES) -> Result:
+def check(ob, timeout: float, examples: int = DEFAULT_EXAMPLES,
+          explain: bool = False) -> Result:
     """The verdict on one obligation: ``timeout`` seconds of solving, then
-    ``examples`` drawn examples if the solver leaves it undecided."""
+    ``examples`` drawn examples if the solver leaves it undecided. With
+    ``explain``, the result carries what the translation believes the body does."""
     from refines import fallback, prove
 
     start = time.perf_counter()
-    outcome = prove.prove(ob, timeout)
+    outcome = prove.prove(ob, timeout, explain=explain)
     if isinstance(outcome, Undecided):
+        explanation = outcome.explanation
         try:
             outcome = fallback.test(ob, outcome, examples)
         except Exception as exc:  # noqa: BLE001 -- never crash the session
@@ -34,13 +37,15 @@ def check(ob, timeout: float, examples: int = DEFAULT_EXAMPLES) -> Result:
                             line=ob.line)
             prove._record(result, exc, ob.path, ob.show, f"testing {ob.function}", ob.line)
             outcome = result
+        outcome.explanation = explanation
     outcome.seconds = time.perf_counter() - start
+    outcome.assuming_text = ob.assuming.text if ob.assuming is not None else None
     return outcome
 
 
 def check_function(fn, index: int, path: str, module: str, timeout: float,
                    show: Callable[[str], str] = str,
-                   examples: int = DEFAULT_EXAMPLES) -> Result:
+                   examples: int = DEFAULT_EXAMPLES, explain: bool = False) -> Result:
     """Read the ``index``-th spec of ``fn`` from source and check it.
 
     ``show`` turns file paths into the form the report uses.
@@ -51,21 +56,21 @@ def check_function(fn, index: int, path: str, module: str, timeout: float,
     base = Result(verdict=ERROR, function=f"{module}.{written.__qualname__}", path=show(path),
                   line=written.__code__.co_firstlineno)
     return _read_then_check(lambda: read_obligation(fn, index, path, module, show), base,
-                            path, show, timeout, examples)
+                            path, show, timeout, examples, explain)
 
 
 def check_attached(att, globals_: dict, timeout: float, show: Callable[[str], str] = str,
-                   examples: int = DEFAULT_EXAMPLES) -> Result:
+                   examples: int = DEFAULT_EXAMPLES, explain: bool = False) -> Result:
     """Check a spec attached with ``attach`` (``globals_``: the attaching module's)."""
     from refines.source import read_attached
 
     base = Result(verdict=ERROR, function=att.function, path=show(att.path), line=att.line)
     return _read_then_check(lambda: read_attached(att, globals_, show), base, att.path, show,
-                            timeout, examples)
+                            timeout, examples, explain)
 
 
 def _read_then_check(read, base: Result, path: str, show, timeout: float,
-                     examples: int) -> Result:
+                     examples: int, explain: bool = False) -> Result:
     from refines.prove import _record
 
     start = time.perf_counter()
@@ -75,4 +80,4 @@ def _read_then_check(read, base: Result, path: str, show, timeout: float,
         _record(base, exc, path, show, f"reading the spec of {base.function}", base.line)
         base.seconds = time.perf_counter() - start
         return base
-    return check(ob, timeout, examples)
+    return check(ob, timeout, examples, explain)

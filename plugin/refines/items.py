@@ -8,11 +8,12 @@ it stays fast. Everything heavy happens in ``runtest``.
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import inspect
 import json
 import sys
 from pathlib import Path
-from typing import Callable, Iterator, List, Optional
+from typing import Callable, Iterator, List, Optional, Tuple
 
 import pytest
 
@@ -76,37 +77,46 @@ def _without_assert_rewriting():
             sys.meta_path.insert(i, h)
 
 
+def obligations(module) -> Iterator[Tuple[str, Callable, int, object]]:
+    """``(name, function, index, attached)`` for every spec ``module`` holds,
+    in the order items are made: decorated functions by line, each stacked
+    spec after the first named ``f[2]``, ``f[3]``; then attached specs."""
+    for fn in specced_functions(module):
+        count = len(getattr(fn, SPECS_ATTRIBUTE))
+        for index in range(count):
+            name = fn.__qualname__ if index == 0 else f"{fn.__qualname__}[{index + 1}]"
+            yield name, fn, index, None
+    seen: dict = {}
+    for att in attached_specs(module):  # specs attached to functions defined elsewhere
+        base = att.function
+        seen[base] = seen.get(base, 0) + 1
+        yield (base if seen[base] == 1 else f"{base}[{seen[base]}]"), att.target, 0, att
+
+
+def import_spec_file(config: pytest.Config, path: Path):
+    """Import a file under the refines paths as pytest imports a test module,
+    but with its asserts as Python runs them."""
+    from _pytest.pathlib import import_path
+
+    with _without_assert_rewriting():
+        return import_path(path, mode=config.getoption("importmode"), root=config.rootpath,
+                           consider_namespace_packages=config.getini(
+                               "consider_namespace_packages"))
+
+
 class RefinesFile(pytest.File):
     """A source file under the refines paths."""
 
     def collect(self) -> Iterator[pytest.Item]:
-        from _pytest.pathlib import import_path
-
         try:
-            with _without_assert_rewriting():
-                module = import_path(
-                    self.path, mode=self.config.getoption("importmode"),
-                    root=self.config.rootpath,
-                    consider_namespace_packages=self.config.getini(
-                        "consider_namespace_packages"))
+            module = import_spec_file(self.config, self.path)
         except Exception as exc:  # noqa: BLE001 -- report, do not crash the session
             raise self.CollectError(
                 f"refines: could not import {self.path} to read its specs:\n"
                 f"  {type(exc).__name__}: {exc}\n"
                 f"Hint: the file must import cleanly (as a test module would).") from exc
-        for fn in specced_functions(module):
-            count = len(getattr(fn, SPECS_ATTRIBUTE))
-            for index in range(count):
-                name = fn.__qualname__ if index == 0 else f"{fn.__qualname__}[{index + 1}]"
-                yield RefinesItem.from_parent(self, name=name, fn=fn, index=index,
-                                              module_name=module.__name__)
-        # Specs this file attaches to functions defined elsewhere (attach(...)).
-        seen: dict = {}
-        for att in attached_specs(module):
-            base = att.function
-            seen[base] = seen.get(base, 0) + 1
-            name = base if seen[base] == 1 else f"{base}[{seen[base]}]"
-            yield RefinesItem.from_parent(self, name=name, fn=att.target, index=0,
+        for name, fn, index, att in obligations(module):
+            yield RefinesItem.from_parent(self, name=name, fn=fn, index=index,
                                           module_name=module.__name__, attached=att)
 
 
@@ -127,19 +137,31 @@ class RefinesItem(pytest.Item):
         from refines.plugin import USER_PROPERTY, examples_of, timeout_of
         from refines.verdict import ERROR, REFUTED, TESTED, UNKNOWN
 
+        explain = self.config.getoption("refines_explain")
+        rewrite = self.config.getoption("refines_apply") or self.config.getoption("refines_diff")
+        # The file as checked: a rewrite at the end of the session leaves it
+        # alone if it changed in the meantime.
+        digest = hashlib.sha256(self.path.read_bytes()).hexdigest() if rewrite else None
         if self.attached is not None:
             module = sys.modules.get(self.module_name)
             result = check_attached(self.attached, vars(module) if module else {},
                                     timeout_of(self.config), show=self.show,
-                                    examples=examples_of(self.config))
+                                    examples=examples_of(self.config), explain=explain)
         else:
             result = check_function(self.fn, self.index, str(self.path), self.module_name,
                                     timeout_of(self.config), show=self.show,
-                                    examples=examples_of(self.config))
+                                    examples=examples_of(self.config), explain=explain)
         self.result = result
         # JSON text: readable in --junitxml properties, and plain data for xdist.
         self.user_properties.append((USER_PROPERTY, json.dumps(
             result.to_json(self.nodeid, self.rel_path))))
+        if rewrite and result.verdict == REFUTED and result.suggested_assuming:
+            from refines.plugin import REWRITE_PROPERTY
+
+            self.user_properties.append((REWRITE_PROPERTY, json.dumps({
+                "nodeid": self.nodeid, "file": str(self.path), "line": result.line,
+                "assuming": result.suggested_assuming, "was": result.assuming_text,
+                "digest": digest})))
         strict = self.config.getoption("refines_strict")
         if result.verdict in (REFUTED, ERROR):
             raise RefinesFailure(result)

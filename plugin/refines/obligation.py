@@ -102,14 +102,22 @@ def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
         else:
             out.append(Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o))
     for members in groups.values():
-        value, heap_state = members[-1].value, dict(members[-1].heap or {})
-        for o in reversed(members[:-1]):
-            value = _merge_value(o.guard, o.value, value)
-            heap_state = _merge_heap(o.guard, o.heap or {}, heap_state)
-        guard = ir.or_(*(o.guard for o in members))
-        merged = ir.Outcome(guard, value=value, line=members[0].line, heap=heap_state)
-        out.append(Violation(ir.and_(guard, ir.not_(allowed(spec, merged))), merged))
+        merged = merge_returns(members)
+        out.append(Violation(ir.and_(merged.guard, ir.not_(allowed(spec, merged))), merged))
     return out
+
+
+def merge_returns(members: List[ir.Outcome]) -> Optional[ir.Outcome]:
+    """One returning outcome for returns of one shape: the value and heap are
+    if-then-else terms over their guards. None when the shapes differ."""
+    if len({_shape(o.value) for o in members}) != 1:
+        return None
+    value, heap_state = members[-1].value, dict(members[-1].heap or {})
+    for o in reversed(members[:-1]):
+        value = _merge_value(o.guard, o.value, value)
+        heap_state = _merge_heap(o.guard, o.heap or {}, heap_state)
+    guard = ir.or_(*(o.guard for o in members))
+    return ir.Outcome(guard, value=value, line=members[0].line, heap=heap_state)
 
 
 def _merge_heap(cond: ir.Term, a: dict, b: dict) -> dict:

@@ -16,6 +16,7 @@ import pytest
 
 PATHS_KEY = pytest.StashKey[List[Path]]()
 USER_PROPERTY = "refines"
+REWRITE_PROPERTY = "refines-rewrite"  # what --refines-apply/--refines-diff would change
 DEFAULT_TIMEOUT = 10.0
 DEFAULT_EXAMPLES = 100
 
@@ -39,6 +40,22 @@ def pytest_addoption(parser: pytest.Parser) -> None:
     group.addoption(
         "--refines-strict", action="store_true", default=False,
         help="fail obligations that are only tested or unknown, not proved")
+    group.addoption(
+        "--refines-apply", action="store_true", default=False,
+        help="write each refuted spec's suggested assuming= into its source file (only "
+             "files committed to git as they are), print the diff, and check the "
+             "rewritten files again")
+    group.addoption(
+        "--refines-diff", action="store_true", default=False,
+        help="print the diff --refines-apply would make, and change nothing")
+    group.addoption(
+        "--refines-allow-uncommitted", action="store_true", default=False,
+        help="with --refines-apply, also rewrite files with changes not committed to "
+             "git, or not in git at all")
+    group.addoption(
+        "--refines-explain", action="store_true", default=False,
+        help="print, for each spec, the before/after relation the translation computed "
+             "and what it guarantees under assuming")
     parser.addini(
         "refines_paths", type="linelist", default=[],
         help="files or folders (relative to the rootdir) whose @refines specs are checked")
@@ -167,6 +184,8 @@ class Gatherer:
     def __init__(self, config: pytest.Config) -> None:
         self.config = config
         self.results: List[dict] = []
+        self.edits: List[dict] = []  # suggestions to write (--refines-apply/--refines-diff)
+        self.rewrites: Optional[List[dict]] = None  # what became of them
 
     def pytest_runtest_logreport(self, report: pytest.TestReport) -> None:
         if report.when != "call":
@@ -174,19 +193,41 @@ class Gatherer:
         for key, value in report.user_properties:
             if key == USER_PROPERTY:
                 self.results.append(json.loads(value))
+            elif key == REWRITE_PROPERTY:
+                self.edits.append(json.loads(value))
 
     def pytest_terminal_summary(self, terminalreporter) -> None:
+        if self.rewrites is not None:
+            from refines.report import rewrite_lines
+
+            terminalreporter.section("refines apply" if self.config.getoption("refines_apply")
+                                     else "refines diff")
+            for line in rewrite_lines(self.rewrites, self.config.getoption("refines_apply")):
+                terminalreporter.write_line(line)
         if not self.results:
             return
         from refines.report import summary_lines
 
+        if self.config.getoption("refines_explain"):
+            from refines.report import explain_lines
+
+            terminalreporter.section("refines explain")
+            for line in explain_lines(self.results):
+                terminalreporter.write_line(line)
         terminalreporter.section("refines")
         for line in summary_lines(self.results):
             terminalreporter.write_line(line)
 
     def pytest_sessionfinish(self, session: pytest.Session) -> None:
+        if hasattr(self.config, "workerinput"):
+            return
+        if self.config.getoption("refines_apply") or self.config.getoption("refines_diff"):
+            from refines.apply import run
+
+            self.rewrites = run(self.config, self.edits, timeout_of(self.config),
+                                examples_of(self.config), self._show)
         target = self.config.getoption("refines_report")
-        if not target or hasattr(self.config, "workerinput"):
+        if not target:
             return
         from refines.report import json_report
 
@@ -195,6 +236,12 @@ class Gatherer:
             path = Path(self.config.invocation_params.dir) / path
         path.parent.mkdir(parents=True, exist_ok=True)
         tmp = path.with_name(path.name + ".tmp")
-        tmp.write_text(json.dumps(json_report(self.results), indent=2) + "\n",
+        tmp.write_text(json.dumps(json_report(self.results, self.rewrites), indent=2) + "\n",
                        encoding="utf-8")
         os.replace(tmp, path)
+
+    def _show(self, path: Path) -> str:
+        try:
+            return Path(path).resolve().relative_to(self.config.rootpath).as_posix()
+        except ValueError:
+            return str(path)

@@ -161,20 +161,25 @@ class Solver:
         return obj
 
 
-def prove(ob: Obligation, timeout: float) -> Union[Result, Undecided]:
+def prove(ob: Obligation, timeout: float, explain: bool = False) -> Union[Result, Undecided]:
     """The verdict on one obligation, within ``timeout`` seconds of solving,
-    or what the solver leaves undecided (for the tester to take up)."""
+    or what the solver leaves undecided (for the tester to take up). With
+    ``explain``, the outcome carries what the translation believes the body
+    does (``explain.explain``, on a budget of its own)."""
     start = time.perf_counter()
     result = _base(ob)
     budget = Budget(timeout)
+    explained: list = [] if explain else None
     try:
         if ob.untranslated is not None:
             raise ob.untranslated
-        outcome = _check(ob, budget, result)
+        outcome = _check(ob, budget, result, explained)
     except Untranslatable as exc:
         outcome = Undecided(
             reason=f"not translated: {exc.text} ({ob.where(exc.path or ob.path, exc.line)})",
             hint=exc.hint, message_key=exc.key)
+        if explain:
+            explained.append({"note": outcome.reason})
     except Exception as exc:  # noqa: BLE001 -- never crash the session
         _record(result, exc, ob.path, ob.show, f"checking {ob.function}", ob.line)
         outcome = result
@@ -186,6 +191,8 @@ def prove(ob: Obligation, timeout: float) -> Union[Result, Undecided]:
         outcome.more = lambda n: [i for _, i in allowed_inputs(ob, timeout, count=n)]
     if isinstance(outcome, Result):
         outcome.seconds = time.perf_counter() - start
+    if explained:
+        outcome.explanation = explained[0]
     return outcome
 
 
@@ -212,7 +219,8 @@ def _base(ob: Obligation) -> Result:
     return Result(verdict=ERROR, function=ob.function, path=ob.show(ob.path), line=ob.line)
 
 
-def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
+def _check(ob: Obligation, budget: Budget, result: Result,
+           explained: Optional[list] = None) -> Result:
     scope = Scope(ob.fn.__globals__, list(ob.fn_node.locals))
     try:
         behaviour = translate_body(ob.fn_node, ob.params, scope)
@@ -221,6 +229,8 @@ def _check(ob: Obligation, budget: Budget, result: Result) -> Result:
         raise
     spec = translate_spec_for(ob)
     solver = Solver(budget)
+    if explained is not None:
+        explained.append(_explanation(ob, behaviour, spec, budget.seconds))
 
     # A spec that can itself raise is malformed: say where, with an example.
     ill = _ill_formed(ob, spec, solver)
@@ -320,6 +330,19 @@ def _later(ob: Obligation, behaviour: ir.Behaviour, spec: Spec, seconds: float):
     budget of their own (the obligation's was spent on the proof)."""
     return lambda counterexample: _preconditions(ob, behaviour, spec,
                                                  Solver(Budget(seconds)), counterexample)
+
+
+def _explanation(ob: Obligation, behaviour: ir.Behaviour, spec: Spec, seconds: float) -> dict:
+    """``explain.explain`` as JSON, in a context and on a budget of its own;
+    a failure is a note."""
+    from refines import explain
+
+    solver = Solver(Budget(seconds))
+    solver.per_query = max(0.05, seconds * PER_SIMPLIFICATION)
+    try:
+        return explain.explain(ob, behaviour, spec, solver).to_json()
+    except Exception as exc:  # noqa: BLE001 -- an explanation is an aid
+        return {"note": f"no explanation (internal error: {type(exc).__name__}: {exc})"}
 
 
 def _unmodelled(ob: Obligation, behaviour: ir.Behaviour, spec, solver: Solver):

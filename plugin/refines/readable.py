@@ -147,16 +147,19 @@ def dnf(t: ir.Term, negate: bool) -> Optional[List[Cube]]:
             same = ir.or_(ir.and_(t.left, t.right),
                           ir.and_(ir.not_(t.left), ir.not_(t.right)))
             return dnf(same, negate != (t.op == "!="))
-        if negate and ir.FLOAT in (t.left.sort, t.right.sort) and t.op not in ("==", "!="):
-            return [[ir.Not(t)]]  # with NaN, not (x < y) is not x >= y
-        op = ir.NEGATED[t.op] if negate else t.op
+        # With NaN, not (x < y) is not x >= y: a negated float ordering stays a
+        # negation (of each case of its operands).
+        keep_not = negate and ir.FLOAT in (t.left.sort, t.right.sort) \
+            and t.op not in ("==", "!=")
+        op = ir.NEGATED[t.op] if negate and not keep_not else t.op
         out: List[Cube] = []
         lcases, rcases = cases(t.left), cases(t.right)
         if lcases is None or rcases is None:
-            return None
+            return [[ir.Not(t)]] if keep_not else None
         for lcube, lterm in lcases:
             for rcube, rterm in rcases:
-                out.append(lcube + rcube + [ir.cmp(op, lterm, rterm)])
+                lit = ir.cmp(op, lterm, rterm)
+                out.append(lcube + rcube + [ir.not_(lit) if keep_not else lit])
                 if len(out) > MAX_CUBES:
                     return None
         return out
@@ -251,13 +254,18 @@ def linear(t: ir.Term, atoms: Dict[str, ir.Term]) -> Tuple[Dict[str, int], int]:
     return {key: 1}, 0
 
 
-def normal_term(t: ir.Term) -> ir.Term:
-    """Fold the linear parts of a term: ``(x + 2 - 1) // 2`` -> ``(x + 1) // 2``."""
+def normal_term(t: ir.Term, order: Optional[Dict[str, int]] = None) -> ir.Term:
+    """Fold the linear parts of a term: ``(x + 2 - 1) // 2`` -> ``(x + 1) // 2``.
+    With ``order`` (name -> position), terms with a plus sign come first, each
+    group in that order: ``queue - leaving``, not ``-leaving + queue``."""
     if isinstance(t, (ir.Var, ir.Const)):
         return t
     atoms: Dict[str, ir.Term] = {}
     coeffs, k = linear(t, atoms)
-    return _rebuild(coeffs, k, atoms, sorted(coeffs))
+    if order is None:
+        return _rebuild(coeffs, k, atoms, sorted(coeffs))
+    names = sorted(coeffs, key=lambda a: (coeffs[a] < 0, order.get(a, len(order)), a))
+    return _rebuild(coeffs, k, atoms, names)
 
 
 def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
@@ -281,6 +289,13 @@ def _rebuild(coeffs: Dict[str, int], k: int, atoms: Dict[str, ir.Term],
 
 def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
     """A comparison as ``<linear form> <op> <constant>``, constants folded."""
+    if isinstance(lit, ir.Not) and isinstance(lit.arg, ir.Cmp):
+        inner = normal_literal(lit.arg, order)
+        return ir.not_(inner)
+    if isinstance(lit, ir.Cmp) and isinstance(lit.left, ir.Const) \
+            and not isinstance(lit.right, ir.Const) and lit.left.sort != ir.REF:
+        # The subject first: `wear < 0.0`, not `0.0 > wear` (exact for floats too).
+        lit = ir.Cmp(ir.FLIPPED[lit.op], lit.right, lit.left)
     if not isinstance(lit, ir.Cmp) or lit.left.sort != ir.INT or lit.right.sort != ir.INT:
         return lit  # only integer comparisons are rearranged: float ones round
     atoms: Dict[str, ir.Term] = {}
@@ -317,8 +332,20 @@ def normal_literal(lit: ir.Term, order: Dict[str, int]) -> ir.Term:
         bounded = _floordiv_bounds(atoms[names[0]], op, k, order)
         if bounded is not None:
             return bounded
-    if k == 0 and len(names) == 2 and coeffs[names[1]] == -1 and coeffs[names[0]] == 1:
-        return ir.Cmp(op, atoms[names[0]], atoms[names[1]])  # x - y == 0  ->  x == y
+        atom = atoms[names[0]]
+        if isinstance(atom, ir.Op) and atom.name == "len":
+            # A length is never negative: `len(s) <= 0` is `len(s) == 0`.
+            if (op, k) in (("<=", 0), ("<", 1)):
+                return ir.Cmp("==", atom, ir.const(0))
+            if (op, k) in ((">=", 1), (">", 0)):
+                return ir.Cmp(">", atom, ir.const(0))
+    positive = [a for a in names if coeffs[a] > 0]
+    negative = [a for a in names if coeffs[a] < 0]
+    if negative:
+        # Terms with a minus sign move to the right: `climbers > 3 * belayers`
+        # rather than `climbers - 3 * belayers > 0`.
+        return ir.Cmp(op, _rebuild(coeffs, 0, atoms, positive),
+                      _rebuild({a: -coeffs[a] for a in negative}, k, atoms, negative))
     # Over the integers x > -1 is x >= 0: compare with zero where one step does it.
     if op == ">" and k == -1:
         op, k = ">=", 0
@@ -418,6 +445,11 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
             if status == z3.unsat:
                 lits = trial
         cubes[i] = lits
+    if len(cubes) > 1:
+        # Widen integer bounds while the cube still implies the target, so
+        # that cases that meet merge: `x >= 1 or x == 0` becomes `x >= 0`
+        # (the second cube is then covered and dropped below).
+        cubes = [_widened(c, not_target, context, solver) for c in cubes]
     result: List[Cube] = []
     for i, cube in enumerate(cubes):
         others = result + cubes[i + 1:]
@@ -426,6 +458,37 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
         if status != z3.unsat:
             result.append(cube)
     return result
+
+
+WIDEN_STEPS = 32  # doublings of a bound's step before giving up
+
+
+def _widened(cube: Cube, not_target: ir.Term, context: ir.Term, solver) -> Cube:
+    lits = list(cube)
+    for i, lit in enumerate(lits):
+        if not (isinstance(lit, ir.Cmp) and lit.op in ("<", "<=", ">", ">=")
+                and isinstance(lit.right, ir.Const) and lit.right.sort == ir.INT
+                and lit.left.sort == ir.INT):
+            continue
+        k, step = int(lit.right.value), (-1 if lit.op in (">", ">=") else 1)
+
+        def ok(n: int) -> bool:
+            trial = lits[:i] + [ir.Cmp(lit.op, lit.left, ir.const(k + step * n))] + lits[i + 1:]
+            return solver.check(context, *trial, not_target)[0] == z3.unsat
+
+        if not ok(1):
+            continue
+        good, n = 1, 2
+        while n <= 2 ** WIDEN_STEPS and ok(n):
+            good, n = n, n * 2
+        if n > 2 ** WIDEN_STEPS:
+            continue  # no bound needed at all: the dropping step keeps it on purpose
+        low, high = good, n
+        while high - low > 1:
+            mid = (low + high) // 2
+            low, high = (mid, high) if ok(mid) else (low, mid)
+        lits[i] = ir.Cmp(lit.op, lit.left, ir.const(k + step * low))
+    return lits
 
 
 def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Dict, Iterable, List
+from typing import Dict, Iterable, List, Optional
 
 from refines.verdict import ERROR, REFUTED, TESTED, UNKNOWN, VERDICTS, Result
 
@@ -113,9 +113,80 @@ def summary_lines(results: List[dict]) -> List[str]:
     return lines
 
 
-def json_report(results: List[dict]) -> dict:
+def json_report(results: List[dict], rewrites: Optional[List[dict]] = None) -> dict:
     ordered = sorted(results, key=lambda r: r["nodeid"])
-    return {"schema": SCHEMA, "summary": counts(ordered), "results": ordered}
+    out = {"schema": SCHEMA, "summary": counts(ordered), "results": ordered}
+    if rewrites is not None:  # --refines-apply or --refines-diff
+        out["rewrites"] = rewrites
+    return out
+
+
+def rewrite_lines(rewrites: List[dict], applying: bool) -> List[str]:
+    """``--refines-apply`` / ``--refines-diff``: per file, what was done with the
+    suggestions, the diff, and the verdicts of checking the rewritten file."""
+    if not rewrites:
+        return ["no refuted spec has a suggested assuming= to write"]
+    lines: List[str] = []
+    for w in rewrites:
+        if lines:
+            lines.append("")
+        lines.append(f"{w['path']}: {w['status']}")
+        for r in w["refused"]:
+            lines.append(f"  left as it is: {r['nodeid']}: {r['why']}")
+        if w["diff"]:
+            lines.extend("  " + line for line in w["diff"].rstrip("\n").splitlines())
+        if w["rechecked"]:
+            lines.append("  checked again after the rewrite:")
+            for r in w["rechecked"]:
+                why = f" -- {r['reason']}" if r.get("reason") and r["verdict"] != "proved" else ""
+                mark = "  (assuming= rewritten)" if r["nodeid"] in w["made"] else ""
+                lines.append(f"    {r['verdict']}: {r['nodeid']}{mark}{why}")
+    if not applying and any(w["diff"] for w in rewrites):
+        lines.append("")
+        lines.append("nothing was written; run with --refines-apply to make these changes "
+                     "(files committed to git only) and check them again")
+    return lines
 
 
 
+
+
+def explain_lines(results: List[dict]) -> List[str]:
+    """``--refines-explain``: per obligation, what the translation believes the
+    body does, and what that guarantees about the result under ``assuming``."""
+    lines: List[str] = []
+    for r in sorted(results, key=lambda r: r["nodeid"]):
+        e = r.get("explanation")
+        if e is None:
+            continue
+        if lines:
+            lines.append("")
+        lines.append(f"{r['nodeid']}  [{r['path']}:{r['line']}]  ({r['verdict']})")
+        if not e.get("relation") and e.get("note") and "guarantee" not in e:
+            lines.append(f"  no explanation: {e['note']}")
+            continue
+        lines.append("  what the body does, as translated (`when` reads the arguments "
+                     "as passed):")
+        cases = e.get("relation") or []
+        width = max((len(w) for w, _ in ((c["when"], c["then"]) for c in cases)
+                     if w != "always"), default=0)
+        for c in cases:
+            when, then = c["when"], c["then"]
+            if when == "always":
+                lines.append(f"      always: {then}")
+            elif width <= 40:
+                lines.append(f"      when {when + ':':<{width + 1}}  {then}")
+            else:
+                lines.append(f"      when {when}:")
+                lines.append(f"          {then}")
+        if e.get("unknowns"):
+            lines.append(f"      ({e['unknowns']})")
+        where = (f"under assuming ({e['assuming']})" if e.get("assuming")
+                 else "for every input")
+        label = ("the strongest condition it guarantees" if e.get("guarantee_kind")
+                 == "strongest" else "facts the solver proves, not necessarily the strongest")
+        lines.append(f"  {where}, about the result ({label}):")
+        lines.extend(f"      {g}" for g in e.get("guarantee") or ())
+        if e.get("note"):
+            lines.append(f"  note: {e['note']}")
+    return lines

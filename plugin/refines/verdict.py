@@ -88,6 +88,7 @@ class Undecided:
     # The preconditions for a counterexample found by testing (its inputs
     # before the call -> precondition.Preconditions), when the body was translated.
     preconditions: Optional[Callable[[Dict[str, Any]], Any]] = None
+    explanation: Optional[dict] = None  # with --refines-explain
 
 
 @dataclass
@@ -114,6 +115,12 @@ class Result:
     message_key: Optional[str] = None  # the errors.MESSAGES row, for unknown/error/tested
     notes: List[str] = field(default_factory=list)
     testing: Optional[Testing] = None  # set when the tester ran
+    # With --refines-explain: what the translation believes the body does
+    # (explain.Explanation as JSON), or {"note": why there is none}.
+    explanation: Optional[dict] = None
+    # The assuming expression as checked (None: there was none); a rewrite of
+    # the source checks that it is still the same.
+    assuming_text: Optional[str] = None
 
     def to_json(self, nodeid: str, path: str) -> dict:
         return {
@@ -131,6 +138,7 @@ class Result:
             "suggested_assuming": self.suggested_assuming,
             "precondition_note": self.precondition_note,
             "testing": self.testing.to_json() if self.testing else None,
+            "explanation": self.explanation,
             # Assumptions, aliasing and other notes; not internal tracebacks.
             "notes": [n for n in self.notes if not n.startswith("Traceback")],
         }
