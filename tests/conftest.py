@@ -12,3 +12,6 @@ import refines.prove  # noqa: F401
 import refines.report  # noqa: F401
 import refines.check  # noqa: F401
 import refines.fallback  # noqa: F401  (with hypothesis, which it draws with)
+import refines.apply  # noqa: F401
+import refines.explain  # noqa: F401
+import refines.rewrite  # noqa: F401
