@@ -129,8 +129,12 @@ def compute(ob, behaviour: ir.Behaviour, spec, solver,
                                  "what they do", scope)
         return Preconditions(exact_text, None,
                              "no input allowed by the current assuming meets the spec", scope)
+    alternatives, simpler = sufficient.alternatives(wp, shown, spec.assuming.holds, params,
+                                                    solver)
+    if simpler is not None and equivalent(simpler, wp, ir.TRUE, params, solver):
+        exact_text = simpler  # an interval that is the same condition, shorter
     out = Preconditions(exact_text, None, None, scope)
-    out.sufficient = sufficient.alternatives(wp, shown, spec.assuming.holds, params, solver)
+    out.sufficient = alternatives
     out.suggested = _suggestion(ob, wp, tightened, exact_text, spec, solver)
     if out.suggested is None:
         out.note = "no tightened assuming could be checked"
@@ -152,8 +156,8 @@ def _suggestion(ob, wp: ir.Term, tightened: ir.Term, exact_text: str, spec,
         if alone is not None:
             candidates.append(alone)
         rest = readable(wp, spec.assuming.holds, params, solver)
-        if rest is not None:
-            both = f"({ob.assuming.text}) and ({rest})" if rest != "True" else ob.assuming.text
+        for part in dict.fromkeys(p for p in (rest, exact_text) if p is not None):
+            both = f"({ob.assuming.text}) and ({part})" if part != "True" else ob.assuming.text
             if equivalent(both, tightened, ir.TRUE, params, solver):
                 candidates.append(both)
     if not candidates:

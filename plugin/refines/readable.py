@@ -55,7 +55,7 @@ def printed(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
     cubes = dnf(target, False)
     if cubes is not None:
         cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
-        cubes = simplify_cubes(cubes, target, context, solver)
+        cubes = simplify_cubes(cubes, target, context, solver, params)
         # Only worth its queries where the cubes reason through //, %,
         # products or floats: linear integer bounds already read well.
         if (len(cubes) > 1 or (cubes and len(cubes[0]) > 1)) and any(
@@ -387,6 +387,16 @@ def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
     return out
 
 
+def _safe(cube: Cube, context: ir.Term, params: Sequence[ir.Var], solver) -> bool:
+    """Whether the printed cube never raises in Python where ``context``
+    holds: the solver's ``s[0]`` has a value for "" too, Python's raises, so
+    a literal may be what guards another one."""
+    if not params:
+        return False
+    value = parse_condition(print_cube(cube), params)
+    return value is not None and solver.check(context, ir.not_(value.defined))[0] == z3.unsat
+
+
 # Ops that raise on some arguments (an index out of range, a division by zero).
 _PARTIAL_OPS = {"getitem", "nth", "int_truediv", "sqrt", "trunc", "floor", "ceil",
                 "str_of_int"}
@@ -423,7 +433,7 @@ def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
 
 
 def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
-                   solver) -> List[Cube]:
+                   solver, params: Sequence[ir.Var] = ()) -> List[Cube]:
     """Drop empty cubes, redundant literals and subsumed cubes, keeping
     ``OR(cubes)`` equivalent to ``target`` under ``context``."""
     kept = []
@@ -442,7 +452,8 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
         for lit in sorted(cube, key=ir.printed_size, reverse=True):
             trial = [x for x in lits if x is not lit]
             status, _, _ = solver.check(context, *trial, not_target)
-            if status == z3.unsat:
+            if status == z3.unsat and (_partial(lit) or not any(_partial(x) for x in trial)
+                                       or _safe(trial, context, params, solver)):
                 lits = trial
         cubes[i] = lits
     if len(cubes) > 1:

@@ -31,12 +31,13 @@ from typing import Callable, List, Optional, Sequence, Tuple
 import z3
 
 from refines import ir
-from refines.readable import Printed, implies, print_cube, print_cubes
+from refines.readable import Printed, implies, parse_condition, print_cube
 
 MAX_SHOWN = 2
 # Parameters whose intervals are searched, and seed points tried for each.
 MAX_PARAMS = 6
 MAX_SEEDS = 6
+MAX_FLOAT_CONSTANTS = 6  # float constants whose products and quotients are tried
 # Models of "assuming and the exact precondition" that rank the candidates.
 SAMPLE = 12
 # A precondition this long or longer is complicated even if linear.
@@ -55,40 +56,55 @@ def complicated(shown: Printed) -> bool:
 
 
 def alternatives(target: ir.Term, shown: Printed, assuming: ir.Term,
-                 params: Sequence[ir.Var], solver) -> List[str]:
-    """Up to ``MAX_SHOWN`` checked texts, each implying ``target``."""
+                 params: Sequence[ir.Var], solver) -> Tuple[List[str], Optional[str]]:
+    """Up to ``MAX_SHOWN`` checked texts, each implying ``target``; and an
+    interval found to be *equivalent* to ``target``, if one is (a simpler way
+    to print the exact precondition: ``-100.0 <= t <= 50.0``), else None."""
     if not complicated(shown) or shown.text in ("True", "False"):
-        return []
+        return [], None
     floor = solver.budget.units - int(SHARE * solver.budget.seconds * _units_per_second())
 
     def affordable() -> bool:
         return solver.budget.units > floor and solver.budget.remaining() > 0
 
-    texts: List[str] = []
-    if shown.cubes and len(shown.cubes) > 1:
-        texts.extend(print_cube(c) for c in shown.cubes)
+    intervals: List[str] = []
     for p in list(params)[:MAX_PARAMS]:
         if not affordable():
             break
         interval = _interval(p, target, assuming, solver, affordable)
         if interval is not None:
-            texts.append(interval)
-    texts.extend(_single_tests(params, target, solver, affordable))
-    kept: List[str] = []
-    for text in dict.fromkeys(texts):
-        if not affordable():
-            break
-        if text == shown.text or not implies(text, target, ir.TRUE, params, solver):
-            continue
-        from refines.readable import parse_condition
+            intervals.append(interval)
+    others: List[str] = []
+    if shown.cubes and len(shown.cubes) > 1:
+        others.extend(print_cube(c) for c in shown.cubes)
+    others.extend(_single_tests(params))
 
-        value = parse_condition(text, params)
-        if solver.check(assuming, value.holds)[0] != z3.sat:
-            continue  # nothing the current assuming allows: no help
-        if solver.check(target, ir.not_(value.holds))[0] == z3.unsat:
-            continue  # equivalent: it is the exact one, in other words
-        kept.append(text)
-    return _ranked(kept, target, assuming, params, solver)[:MAX_SHOWN]
+    same: List[str] = []  # equivalent to the target, by the checks below
+
+    def useful(texts: List[str]) -> List[str]:
+        kept = []
+        for text in dict.fromkeys(texts):
+            if not affordable():
+                break
+            if text == shown.text or not implies(text, target, ir.TRUE, params, solver):
+                continue
+            value = parse_condition(text, params)
+            if solver.check(target, ir.not_(value.holds))[0] == z3.unsat:
+                same.append(text)  # the exact one, in other words
+                continue
+            if solver.check(assuming, value.holds)[0] != z3.sat:
+                continue  # nothing the current assuming allows: no help
+            kept.append(text)
+        return kept
+
+    # The best interval first (the simplest form there is), then the best of
+    # the rest; one of two equivalent conditions is dropped.
+    ranked = _ranked(useful(intervals), target, assuming, params, solver)
+    simpler = min((t for t in same if len(t) < len(shown.text)), key=len, default=None)
+    if simpler is not None:
+        return [], simpler  # the exact precondition is that simple: nothing to add
+    return _ranked(ranked[:1] + useful(others) + ranked[1:], target, assuming, params,
+                   solver, keep_first=bool(ranked))[:MAX_SHOWN], None
 
 
 def _units_per_second() -> int:
@@ -98,9 +114,10 @@ def _units_per_second() -> int:
 
 
 def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
-            params: Sequence[ir.Var], solver) -> List[str]:
-    """By how many sampled inputs that meet the spec each allows, then length;
-    one of two equivalent texts is dropped."""
+            params: Sequence[ir.Var], solver, keep_first: bool = False) -> List[str]:
+    """By how many sampled inputs that meet the spec each allows, then length
+    (the first stays first with ``keep_first``); one of two equivalent texts
+    is dropped."""
     if len(texts) <= 1:
         return texts
     from refines.prove import diverse
@@ -120,10 +137,9 @@ def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
                 pass
         return n
 
-    order = sorted(texts, key=lambda t: (-covered(t), len(t), t))
+    head = texts[:1] if keep_first else []
+    order = head + sorted(texts[len(head):], key=lambda t: (-covered(t), len(t), t))
     out: List[str] = []
-    from refines.readable import parse_condition
-
     for text in order:
         value = parse_condition(text, params)
         if any(solver.check(ir.not_(ir.cmp("==", value.holds,
@@ -255,9 +271,17 @@ class _Floats:
 
     def __init__(self, constants: List[float]) -> None:
         points = {0.0, 1.0, -1.0, math.inf, -math.inf}
-        for c in constants:
-            if c == c:
-                points.update({c, math.nextafter(c, math.inf), math.nextafter(c, -math.inf)})
+        finite = [c for c in constants if math.isfinite(c)][:MAX_FLOAT_CONSTANTS]
+        # Bounds are often worked out from the constants: 100.0 / 2.0, -100.0.
+        derived = set(finite) | {-c for c in finite}
+        for a in finite:
+            for b in finite:
+                derived.add(a * b)
+                if b:
+                    derived.add(a / b)
+        for c in derived:
+            if math.isfinite(c):
+                points.update({c, -c, math.nextafter(c, math.inf), math.nextafter(c, -math.inf)})
         self.points = sorted(points)
         self.bottom, self.top = 0, len(self.points) - 1
 
@@ -335,8 +359,7 @@ def _constants(t: ir.Term) -> set:
     return out
 
 
-def _single_tests(params: Sequence[ir.Var], target: ir.Term, solver,
-                  affordable: Callable[[], bool]) -> List[str]:
+def _single_tests(params: Sequence[ir.Var]) -> List[str]:
     """One-literal candidates: a bool parameter, ``x is not None``."""
     out = []
     for p in params:
