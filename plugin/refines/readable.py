@@ -53,6 +53,10 @@ def printed(target: ir.Term, context: ir.Term, params: Sequence[ir.Var],
             solver) -> Optional[Printed]:
     """``readable``, with the cubes behind the text."""
     cubes = dnf(target, False)
+    if cubes is None:
+        # Too many cases to expand by hand (a formula in conjunctive form):
+        # the solver lists the cases instead.
+        cubes = implicants(target, context, solver)
     if cubes is not None:
         cubes = [c for c in (normal_cube(c, params) for c in cubes) if c is not None]
         cubes = simplify_cubes(cubes, target, context, solver, params)
@@ -164,6 +168,83 @@ def dnf(t: ir.Term, negate: bool) -> Optional[List[Cube]]:
                     return None
         return out
     return None
+
+
+def implicants(target: ir.Term, context: ir.Term, solver) -> Optional[List[Cube]]:
+    """A DNF of ``target`` made by the solver rather than by expansion: a model
+    of ``target`` not covered yet gives a cube (every atom of the formula as
+    the model has it), which is widened by dropping each literal that it can
+    do without while still implying ``target``. At most ``MAX_CUBES`` cubes;
+    None if the formula has an atom the cubes cannot hold (an if-then-else
+    value) or the solver cannot say."""
+    atoms = _atoms(target)
+    if atoms is None or len(atoms) > MAX_ATOMS:
+        return None
+    not_target = ir.not_(target)
+    cubes: List[Cube] = []
+    for _ in range(MAX_CUBES):
+        covered = ir.or_(*(ir.and_(*c) for c in cubes)) if cubes else ir.FALSE
+        status, model, _ = solver.check(context, target, ir.not_(covered))
+        if status == z3.unsat:
+            return cubes
+        if status != z3.sat:
+            return None
+        cube = []
+        for a in atoms:
+            value = model.eval(solver.lower(a), model_completion=True)
+            cube.append(a if z3.is_true(value) else _negated(a))
+        for lit in list(cube):
+            trial = [x for x in cube if x is not lit]
+            if solver.check(context, *trial, not_target)[0] == z3.unsat:
+                cube = trial
+        cubes.append(cube)
+    return None
+
+
+MAX_ATOMS = 24
+
+
+def _negated(a: ir.Term) -> ir.Term:
+    """``not a``, as the opposite comparison where that is exact (not for
+    floats: with a NaN, not (x < y) is not x >= y)."""
+    if isinstance(a, ir.Cmp) and ir.FLOAT not in (a.left.sort, a.right.sort):
+        return ir.Cmp(ir.NEGATED[a.op], a.left, a.right)
+    return ir.not_(a)
+
+
+def _atoms(t: ir.Term) -> Optional[List[ir.Term]]:
+    """The comparisons and boolean tests ``t`` is made of, by ``and``, ``or``,
+    ``not`` and boolean if-then-else; None if a value inside one is an
+    if-then-else (the cases would have to be split first)."""
+    out, seen, stack = [], set(), [t]
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, ir.Const):
+            continue
+        if isinstance(n, (ir.And, ir.Or, ir.Not)) or (
+                isinstance(n, ir.Ite) and n.sort == ir.BOOL) or (
+                isinstance(n, ir.Cmp) and n.left.sort == ir.BOOL and n.right.sort == ir.BOOL):
+            stack.extend(ir.children(n))
+            continue
+        if n.sort != ir.BOOL or any(isinstance(k, ir.Ite) for k in _subterms(n)):
+            return None
+        if not any(ir.render(n) == ir.render(a) for a in out):
+            out.append(n)
+    return out
+
+
+def _subterms(t: ir.Term):
+    stack, seen = [t], set()
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        yield n
+        stack.extend(ir.children(n))
 
 
 def cases(t: ir.Term) -> Optional[List[Tuple[Cube, ir.Term]]]:

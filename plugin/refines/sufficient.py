@@ -193,7 +193,68 @@ def _interval(p: ir.Var, target: ir.Term, assuming: ir.Term, solver,
         if p.sort == ir.FLOAT:  # between the infinities: any float but a NaN
             return f"not math.isnan({p.name})"
         return None  # no bound at all: the target holds everywhere
+    if p.sort == ir.FLOAT:
+        return _float_interval(measure, domain, seed, lo, hi, target, solver, affordable)
     return domain.text(ir.render(measure), lo, hi, _int_constants(target))
+
+
+def _float_interval(measure, domain: "_Floats", seed: int, lo: Optional[int],
+                    hi: Optional[int], target: ir.Term, solver, affordable) -> str:
+    """The float interval's ends, from the candidate points out to the last
+    double that still implies ``target`` (bisection over the doubles in
+    order), then the shortest decimal between the two (``10.0``, not
+    ``10.000000000000002``): any point inside is still sufficient."""
+    points = domain.points
+
+    def ok(low: Optional[float], high: Optional[float]) -> bool:
+        if not affordable():
+            return False
+        parts = [ir.not_(target)]
+        if low is not None:
+            parts.append(ir.cmp(">=", measure, ir.const(low)))
+        if high is not None:
+            parts.append(ir.cmp("<=", measure, ir.const(high)))
+        return solver.check(*parts)[0] == z3.unsat
+
+    centre = points[seed]
+    high = None if hi is None else _nicest(points[hi], _last_good(
+        points[hi], points[hi + 1], lambda v: ok(centre, v)))
+    low = None if lo is None else _nicest(points[lo], _last_good(
+        points[lo], points[lo - 1], lambda v: ok(v, centre)))
+    return domain.text_values(ir.render(measure), low, high)
+
+
+def _key(f: float) -> int:
+    """Doubles in order as integers (-0.0 and 0.0 are one point)."""
+    bits = struct.unpack("<q", struct.pack("<d", f))[0]
+    return bits if bits >= 0 else -(bits & 0x7FFFFFFFFFFFFFFF)
+
+
+def _unkey(k: int) -> float:
+    bits = k if k >= 0 else (-k) | -0x8000000000000000
+    return struct.unpack("<d", struct.pack("<q", bits))[0]
+
+
+def _last_good(good: float, bad: float, ok: Callable[[float], bool]) -> float:
+    """The last double from ``good`` towards ``bad`` for which ``ok`` holds."""
+    g, b = _key(good), _key(bad)
+    while abs(b - g) > 1:
+        mid = (g + b) // 2
+        if ok(_unkey(mid)):
+            g = mid
+        else:
+            b = mid
+    return _unkey(g)
+
+
+def _nicest(inner: float, outer: float) -> float:
+    """The float with the shortest decimal form between ``inner`` and ``outer``."""
+    low, high = min(inner, outer), max(inner, outer)
+    for digits in range(1, 18):
+        candidate = float(f"{outer:.{digits}g}")
+        if low <= candidate <= high:
+            return candidate
+    return outer
 
 
 def _widest(seed, step: Callable, end, ok: Callable) -> Optional[object]:
@@ -272,11 +333,11 @@ class _Floats:
     def __init__(self, constants: List[float]) -> None:
         points = {0.0, 1.0, -1.0, math.inf, -math.inf}
         finite = [c for c in constants if math.isfinite(c)][:MAX_FLOAT_CONSTANTS]
-        # Bounds are often worked out from the constants: 100.0 / 2.0, -100.0.
+        # Bounds are often worked out from the constants: 100.0 / 2.0, 7.0 + 3.0.
         derived = set(finite) | {-c for c in finite}
         for a in finite:
             for b in finite:
-                derived.add(a * b)
+                derived.update((a + b, a - b, a * b))
                 if b:
                     derived.add(a / b)
         for c in derived:
@@ -303,8 +364,8 @@ class _Floats:
         out.extend(i for i, c in enumerate(self.points) if math.isfinite(c))
         return list(dict.fromkeys(out))[:MAX_SEEDS]
 
-    def text(self, name: str, lo: Optional[int], hi: Optional[int], constants: set) -> str:
-        show = lambda i: ir.render(ir.const(self.points[i]))  # noqa: E731
+    def text_values(self, name: str, lo: Optional[float], hi: Optional[float]) -> str:
+        show = lambda v: ir.render(ir.const(v))  # noqa: E731
         if lo is not None and hi is not None:
             return f"{show(lo)} <= {name} <= {show(hi)}"
         if lo is not None:
