@@ -217,6 +217,10 @@ class Gatherer:
         terminalreporter.section("refines")
         for line in summary_lines(self.results):
             terminalreporter.write_line(line)
+        if self.rewrites and self.config.getoption("refines_apply"):
+            from refines.report import rewrite_summary
+
+            terminalreporter.write_line(rewrite_summary(self.rewrites))
 
     def pytest_sessionfinish(self, session: pytest.Session) -> None:
         if hasattr(self.config, "workerinput"):

@@ -190,3 +190,18 @@ def explain_lines(results: List[dict]) -> List[str]:
         if e.get("note"):
             lines.append(f"  note: {e['note']}")
     return lines
+
+
+def rewrite_summary(rewrites: List[dict]) -> str:
+    """One line after the counts: what --refines-apply rewrote, and how the
+    rewritten specs fared when checked again (the counts above are from before)."""
+    made = [n for w in rewrites for n in w["made"] if w["status"] == "written"]
+    again = {r["nodeid"]: r["verdict"] for w in rewrites for r in w["rechecked"]}
+    verdicts = [again.get(n, "not checked") for n in made]
+    kept = sum(len(w["made"]) for w in rewrites if w["status"] != "written")
+    text = (f"refines apply: {len(made)} assuming= rewritten, checked again: "
+            + (", ".join(f"{verdicts.count(v)} {v}" for v in dict.fromkeys(verdicts))
+               if made else "nothing"))
+    if kept:
+        text += f"; {kept} not written (see above)"
+    return text + " (the counts above are from before the rewrite)"
