@@ -109,15 +109,18 @@ def recheck(config, path: Path, timeout: float, examples: int,
 
 
 def _fresh(module, path: Path):
-    """``module`` run again from its (new) text, under the same name."""
-    try:
-        return importlib.reload(module)
-    except Exception:  # noqa: BLE001 -- e.g. imported by path (importmode=importlib)
-        import importlib.util
-        import sys
+    """``module`` run again from its new text, under the same name. The text is
+    compiled from the file itself, never from a cached ``.pyc``, which could be
+    taken for current when the rewrite keeps the file's size and modification
+    second."""
+    import importlib.util
+    import sys
 
-        spec = importlib.util.spec_from_file_location(module.__name__, path)
-        fresh = importlib.util.module_from_spec(spec)
-        sys.modules[module.__name__] = fresh
-        spec.loader.exec_module(fresh)
-        return fresh
+    locations = [str(path.parent)] if path.name == "__init__.py" else None
+    spec = importlib.util.spec_from_file_location(module.__name__, path,
+                                                  submodule_search_locations=locations)
+    fresh = importlib.util.module_from_spec(spec)
+    code = compile(path.read_bytes(), str(path), "exec")
+    sys.modules[module.__name__] = fresh
+    exec(code, vars(fresh))  # noqa: S102 -- the user's module, as importing it does
+    return fresh

@@ -17,6 +17,7 @@ over the original, keeping its permissions.
 
 from __future__ import annotations
 
+import ast
 import difflib
 import os
 import re
@@ -53,11 +54,49 @@ class Change:
     refused: List[Tuple[Edit, str]] = field(default_factory=list)  # (edit, why)
 
     def diff(self, shown: str) -> str:
+        """A unified diff from the old text to the new (empty if no change)."""
         if self.after is None:
             return ""
-        a = self.before.decode("utf-8", "replace").splitlines(keepends=True)
-        b = self.after.decode("utf-8", "replace").splitlines(keepends=True)
-        return "".join(difflib.unified_diff(a, b, f"a/{shown}", f"b/{shown}"))
+        return unified_diff(self.before.decode("utf-8", "replace"),
+                            self.after.decode("utf-8", "replace"), shown)
+
+
+NO_NEWLINE = "\\ No newline at end of file\n"
+
+
+def unified_diff(before: str, after: str, shown: str, context: int = 3) -> str:
+    """``difflib.unified_diff``'s hunks, with a last line that has no newline
+    ended and followed by the marker line patch tools read, as git writes it
+    (difflib leaves such a line unended, which runs two lines together)."""
+    a, b = before.splitlines(keepends=True), after.splitlines(keepends=True)
+    if a == b:
+        return ""
+    out = [f"--- a/{shown}\n", f"+++ b/{shown}\n"]
+
+    def line(mark: str, text: str) -> None:
+        out.append(mark + (text if text.endswith("\n") else text + "\n" + NO_NEWLINE))
+
+    for group in difflib.SequenceMatcher(None, a, b).get_grouped_opcodes(context):
+        i1, i2, j1, j2 = group[0][1], group[-1][2], group[0][3], group[-1][4]
+        out.append(f"@@ -{_span(i1, i2)} +{_span(j1, j2)} @@\n")
+        for tag, x1, x2, y1, y2 in group:
+            if tag == "equal":
+                for t in a[x1:x2]:
+                    line(" ", t)
+                continue
+            for t in a[x1:x2]:
+                line("-", t)
+            for t in b[y1:y2]:
+                line("+", t)
+    return "".join(out)
+
+
+def _span(start: int, end: int) -> str:
+    """A hunk's range as the unified format writes it (1-based; ``n,0`` when empty)."""
+    length = end - start
+    if length == 1:
+        return f"{start + 1}"
+    return f"{start + 1 if length else start},{length}"
 
 
 def change(path: Path, edits: Sequence[Edit]) -> Change:
@@ -92,7 +131,7 @@ def change(path: Path, edits: Sequence[Edit]) -> Change:
             out.refused.append((e, f"the suggestion does not parse ({exc})"))
             continue
         replacements[id(call)] = _with_assuming(module, call, new_value, finder.columns[e.line],
-                                                finder.indents[e.line])
+                                                finder.indents[e.line], finder.starts[e.line])
         out.made.append(e)
     if not out.made:
         return out
@@ -126,6 +165,7 @@ def _Finder(lines):  # noqa: N802 -- a class made where libcst is imported
             self.calls: Dict[int, cst.Call] = {}
             self.columns: Dict[int, int] = {}  # column of the first argument
             self.indents: Dict[int, int] = {}  # column where the call's statement starts
+            self.starts: Dict[int, int] = {}  # column where the call itself starts
             self.depth = 0
 
         def visit_Decorator(self, node: cst.Decorator) -> None:
@@ -144,6 +184,7 @@ def _Finder(lines):  # noqa: N802 -- a class made where libcst is imported
                 self.columns[start.line] = (self.get_metadata(PositionProvider, first).start
                                             .column if first is not None else start.column + 1)
                 self.indents[start.line] = indent
+                self.starts[start.line] = start.column
 
     return Finder()
 
@@ -163,17 +204,25 @@ def _check_was(module, call, e: Edit) -> str:
     if e.was is None:
         return "it has an assuming= that was not there when it was checked"
     body = module.code_for_node(value.body)
-    if _squeezed(body) != _squeezed(e.was):
+    if _structure(body) != _structure(e.was):
         return "its assuming= changed since the check"
     return ""
 
 
-def _squeezed(text: str) -> str:
-    text = re.sub(r"#[^\n]*", "", text)
-    return re.sub(r"[\s()\\]", "", text)
+def _structure(text: str) -> str:
+    """The expression's syntax tree, so that layout, comments and redundant
+    parentheses do not count, and a regrouping does."""
+    try:
+        return ast.dump(ast.parse("(\n" + text + "\n)", mode="eval"))
+    except SyntaxError:
+        return re.sub(r"\s", "", text)
 
 
-def _with_assuming(module, call, value, column: int, indent: int):
+def _with_assuming(module, call, value, column: int, indent: int, start: int):
+    """``call`` with ``assuming=value``: the keyword's value replaced, or the
+    argument added after the last one. ``column``: where the first argument
+    starts; ``indent``: the statement's indentation; ``start``: the column of
+    the call on its first line (after a decorator's ``@``)."""
     import libcst as cst
 
     args = list(call.args)
@@ -185,20 +234,32 @@ def _with_assuming(module, call, value, column: int, indent: int):
                       equal=cst.AssignEqual(whitespace_before=cst.SimpleWhitespace(""),
                                             whitespace_after=cst.SimpleWhitespace("")))
     last = args[-1]
-    trailing = last.comma  # a trailing comma (or none) moves to the new last argument
-    if len(args) >= 2 and isinstance(args[-2].comma, cst.Comma):
-        comma = args[-2].comma  # the same spacing as between the others
+    # What follows the last argument -- a trailing comma, or the space before
+    # `)` (a line break when `)` is on a line of its own) -- moves to the new one.
+    trailing, before_close = last.comma, last.whitespace_after_arg
+    layout = None  # the line break and indentation one argument is separated by
+    if len(args) >= 2 and isinstance(args[-2].comma, cst.Comma) and isinstance(
+            args[-2].comma.whitespace_after, cst.ParenthesizedWhitespace):
+        layout = args[-2].comma.whitespace_after
+    elif isinstance(call.whitespace_before_args, cst.ParenthesizedWhitespace):
+        layout = call.whitespace_before_args  # one argument, on a line of its own
+    if layout is not None:
+        # The same line break and indentation, without a comment it may carry.
+        space = cst.ParenthesizedWhitespace(first_line=cst.TrailingWhitespace(),
+                                            empty_lines=[], indent=layout.indent,
+                                            last_line=layout.last_line)
     else:
         text = module.code_for_node(call)
-        one_line = "\n" not in text
-        added = len(module.code_for_node(value)) + len("assuming=, ")
-        if one_line and indent + len(text) + added <= MAX_LINE:
-            comma = cst.Comma(whitespace_after=cst.SimpleWhitespace(" "))
-        else:
-            comma = cst.Comma(whitespace_after=cst.ParenthesizedWhitespace(
+        added = len(module.code_for_node(value)) + len(", assuming=")
+        if "\n" not in text and start + len(text) + added <= MAX_LINE:
+            space = cst.SimpleWhitespace(" ")
+        else:  # on a line of its own, under the first argument
+            space = cst.ParenthesizedWhitespace(
                 first_line=cst.TrailingWhitespace(), empty_lines=[], indent=True,
-                last_line=cst.SimpleWhitespace(" " * max(0, column - indent))))
-    args[-1] = last.with_changes(comma=comma)
+                last_line=cst.SimpleWhitespace(" " * max(0, column - indent)))
+    args[-1] = last.with_changes(comma=cst.Comma(whitespace_after=space),
+                                 whitespace_after_arg=cst.SimpleWhitespace(""))
+    new_arg = new_arg.with_changes(whitespace_after_arg=before_close)
     if isinstance(trailing, cst.Comma):
         new_arg = new_arg.with_changes(comma=trailing)
     args.append(new_arg)

@@ -18,6 +18,7 @@ import z3
 
 import bench_fallback
 import bench_overhead
+import bench_preconditions
 import bench_rlimit
 import bench_sequential_ifs
 import bench_solver_strategy
@@ -76,6 +77,11 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
         print("=" * 30, "6. the tester against plain hypothesis", "=" * 30)
         fallback = bench_fallback.run(*((2, 3) if args.quick else (5, 20)))["summary"]
         print()
+
+    print("=" * 30, "7. preconditions of the suggestion corpus", "=" * 30)
+    preconditions = bench_preconditions.run(2 if args.quick else 5)
+    bench_preconditions.report(preconditions)
+    print()
 
     print("=" * 30, "summary", "=" * 30)
     ratios = overhead["ratio_per_case_warm"]
