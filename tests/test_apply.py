@@ -388,3 +388,31 @@ def test_a_file_edited_after_its_specs_ran_is_not_written(late):
     # Only the conftest's edit is there: it did run first, and nothing was written.
     assert (late.path / "fines.py").read_text() == LATE + "# edited while the checks ran\n"
     assert "  checked again after the rewrite:" not in result.outlines
+
+
+# ---------------------------------------------------------------- bad input
+
+
+@pytest.mark.parametrize("args,needle", [
+    (("--refines-apply", "--refines-diff"), "*--refines-apply and --refines-diff do not go "
+                                            "together*choose one*"),
+    (("--refines-allow-uncommitted",), "*--refines-allow-uncommitted only has an effect with "
+                                       "--refines-apply*"),
+])
+def test_options_that_do_not_go_together_are_usage_errors(late, args, needle):
+    before = files_of(late.path)
+    result = run(late, *args)
+    assert result.ret == pytest.ExitCode.USAGE_ERROR
+    result.stderr.fnmatch_lines([needle])
+    assert files_of(late.path) == before
+
+
+def test_without_libcst_nothing_is_written_and_the_session_ends_normally(late, monkeypatch):
+    # An import of a module set to None in sys.modules raises ImportError
+    # (Python Language Reference, "The module cache"; recalled from memory).
+    monkeypatch.setitem(__import__("sys").modules, "libcst", None)
+    before = files_of(late.path)
+    result = run(late, "--refines-apply", "--refines-allow-uncommitted")
+    result.assert_outcomes(failed=1)
+    result.stdout.fnmatch_lines(["*not written: libcst cannot be imported*install it*"])
+    assert files_of(late.path) == before

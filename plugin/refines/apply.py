@@ -54,8 +54,15 @@ def run(config, edits: List[dict], timeout: float, examples: int,
             entry["refused"] = [{"nodeid": r["nodeid"], "why": "the file changed"}
                                 for r in records]
             continue
-        planned = change(path, [Edit(path, r["line"], r["assuming"], r["was"], r["nodeid"])
-                                for r in sorted(records, key=lambda r: r["line"])])
+        try:
+            planned = change(path, [Edit(path, r["line"], r["assuming"], r["was"],
+                                         r["nodeid"])
+                                    for r in sorted(records, key=lambda r: r["line"])])
+        except ImportError:
+            raise  # libcst missing: said once for the whole run
+        except Exception as exc:  # noqa: BLE001 -- this file is left alone, the rest goes on
+            entry["status"] = f"not written: internal error: {type(exc).__name__}: {exc}"
+            continue
         entry["made"] = [e.nodeid for e in planned.made]
         entry["refused"] = [{"nodeid": e.nodeid, "why": why} for e, why in planned.refused]
         entry["diff"] = planned.diff(show(path))

@@ -94,6 +94,13 @@ def pytest_configure(config: pytest.Config) -> None:
     if examples_of(config) < 1:
         raise pytest.UsageError(f"--refines-examples must be at least 1, "
                                 f"got {examples_of(config)}")
+    if config.getoption("refines_apply") and config.getoption("refines_diff"):
+        raise pytest.UsageError("--refines-apply and --refines-diff do not go together: "
+                                "--refines-diff only shows the change, --refines-apply makes "
+                                "it (and shows it too); choose one")
+    if config.getoption("refines_allow_uncommitted") and not config.getoption("refines_apply"):
+        raise pytest.UsageError("--refines-allow-uncommitted only has an effect with "
+                                "--refines-apply; add --refines-apply to rewrite files")
 
     # Specs are collected even when no test path names them: the ini paths are
     # added unless the user named what to run; --refines-path always is.
@@ -228,8 +235,15 @@ class Gatherer:
         if self.config.getoption("refines_apply") or self.config.getoption("refines_diff"):
             from refines.apply import run
 
-            self.rewrites = run(self.config, self.edits, timeout_of(self.config),
-                                examples_of(self.config), self._show)
+            try:
+                self.rewrites = run(self.config, self.edits, timeout_of(self.config),
+                                    examples_of(self.config), self._show)
+            except Exception as exc:  # noqa: BLE001 -- never crash the session, write nothing
+                why = (f"libcst cannot be imported ({exc}); install it: python -m pip install "
+                       f"libcst" if isinstance(exc, ImportError)
+                       else f"internal error: {type(exc).__name__}: {exc}")
+                self.rewrites = [{"path": "(all files)", "status": f"not written: {why}",
+                                  "diff": "", "made": [], "refused": [], "rechecked": []}]
         target = self.config.getoption("refines_report")
         if not target:
             return
