@@ -121,3 +121,13 @@ def test_the_nicest_end_stays_inside_the_interval():
     for inner, outer in ((1.5, 1.7), (2.0, 2.0), (-7.1, -9.9)):
         got = sufficient._nicest(inner, outer)
         assert min(inner, outer) <= got <= max(inner, outer)
+
+
+def test_short_decimals_between_two_doubles_come_in_order():
+    got = sufficient._short_decimals(9.000000000000002, 12.0)
+    assert 10.0 in got and 11.5 in got and 9.5 in got
+    assert got == sorted(got) and all(9.000000000000002 < v < 12.0 for v in got)
+    down = sufficient._short_decimals(-2.5, -7.0)
+    assert down == sorted(down, reverse=True) and -5.0 in down
+    assert sufficient._short_decimals(1.0, 1.0) == []
+    assert sufficient._short_decimals(0.0, math.inf) == []
