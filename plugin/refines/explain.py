@@ -23,6 +23,7 @@ counted in the note.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from typing import Dict, List, Optional, Sequence, Tuple
 
@@ -61,7 +62,7 @@ def explain(ob, behaviour: ir.Behaviour, spec, solver) -> Explanation:
     params = ob.params
     out = Explanation(assuming=ob.assuming.text if ob.assuming is not None else None)
     names = _Names(behaviour)
-    changes = any(_written(o) for o in behaviour.outcomes if o.returns)
+    changes = any(_effects(o, params, names) for o in behaviour.outcomes if o.returns)
     skipped = 0
     grouped: Dict[str, List[ir.Term]] = {}
     order: List[str] = []
@@ -80,8 +81,10 @@ def explain(ob, behaviour: ir.Behaviour, spec, solver) -> Explanation:
             skipped += 1
             continue
         out.cases.append(("always" if when == "True" else when, then))
-    if names.used:
-        out.unknowns = ", ".join(names.used) + ": values the untranslated parts give (" \
+    shown = " ".join(w + " " + t for w, t in out.cases)
+    used = [n for n in names.used if re.search(rf"\b{n}\b", shown)]
+    if used:
+        out.unknowns = ", ".join(used) + ": values the untranslated parts give (" \
             + "; ".join(behaviour.untranslated) + ")"
     out.guarantee, out.guarantee_kind, lost = _guarantee(behaviour, spec, params, solver)
     skipped += lost
@@ -167,7 +170,7 @@ def _ends(o: ir.Outcome, params, names: _Names, old: bool,
         why = f": {o.cause}" if o.cause and not o.cause.startswith("raise ") else ""
         return [(o.guard, f"raises {o.exception.__name__} (line {o.line}{why})")]
     effects = _effects(o, params, names)
-    pieces = _result_cases(o.value, {p.name: i for i, p in enumerate(params)})
+    pieces = _result_cases(o.value, {p.name: i for i, p in enumerate(params)}, o.heap or {})
     if isinstance(o.value, ir.Term) and o.value.sort == ir.BOOL \
             and not isinstance(o.value, ir.Const):
         # A bool result reads best as the condition it is, made readable.
@@ -176,19 +179,26 @@ def _ends(o: ir.Outcome, params, names: _Names, old: bool,
             pieces = [([], f"result == ({text})")]
     out = []
     for cube, text in pieces:
+        guard = ir.and_(o.guard, *cube)
+        if isinstance(text, ir.Cmp) and text.right.sort == ir.FLOAT and solver.check(
+                guard, ir.op("isnan", text.right, sort=ir.BOOL))[0] != z3.unsat:
+            # A NaN is not == to itself: say that a NaN comes back as a NaN.
+            value = _printed(names.shown(text.right, old))
+            text = f"result == {value} or math.isnan({value}) and math.isnan(result)"
         parts = [text] + effects
-        out.append((ir.and_(o.guard, *cube), " and ".join(
+        out.append((guard, " and ".join(
             _render(p, names, old) if isinstance(p, ir.Term) else p for p in parts)))
     return out
 
 
-def _result_cases(v, order: Dict[str, int]) -> List[Tuple[list, object]]:
+def _result_cases(v, order: Dict[str, int], heap_state: dict) -> List[Tuple[list, object]]:
     """``result == v`` split on the if-then-else terms of the value (of each
-    item of a tuple), linear parts folded."""
+    item of a tuple) and on whether an optional value is None, linear parts
+    folded; ``heap_state`` holds the contents of a list the call makes."""
     split = _split(v)
     if split is None or len(split) > MAX_CASES:
         split = [([], v)]
-    return [(cube, _equals(_folded(value, order))) for cube, value in split]
+    return [(cube, _equals(_folded(value, order), heap_state)) for cube, value in split]
 
 
 def _split(v) -> Optional[List[Tuple[list, object]]]:
@@ -200,6 +210,11 @@ def _split(v) -> Optional[List[Tuple[list, object]]]:
                 return None
             out = [(c + sc, items + (si,)) for c, items in out for sc, si in sub]
         return [(c, ir.Tup(items)) for c, items in out]
+    if isinstance(v, ir.Opt):
+        rest = _split(v.value)
+        if rest is None:
+            return None
+        return [([v.none], ir.NONE)] + [([ir.not_(v.none)] + c, x) for c, x in rest]
     if isinstance(v, ir.Term) and v.sort != ir.BOOL:
         return value_cases(v) or [([], v)]
     return [([], v)]
@@ -216,7 +231,7 @@ def _folded(v, order: Dict[str, int]):
     return v
 
 
-def _equals(v):
+def _equals(v, heap_state: dict):
     """``result == v`` as a term where one exists, else as text."""
     if v is ir.NONE:
         return "result is None"
@@ -226,6 +241,11 @@ def _equals(v):
     if isinstance(v, ir.Ref):
         if isinstance(v.ref, ir.Var) and v.ref.name.endswith(ir.REF_SUFFIX):
             return f"result is {ir.render(v.ref)}"
+        if v.kind.startswith("list:"):
+            # A list the call made: its contents, from the heap as the call left it.
+            key = heap.field_key(v.kind)
+            contents = ir.select(heap_state.get(key) or heap.initial_field(key), v.ref)
+            return ir.Cmp("==", ir.Var("result", contents.sort), contents)
         return f"result is a new {heap.describe(v.kind)}"
     return f"result == {ir.render_value(v)}"
 
@@ -287,27 +307,35 @@ def _guarantee(behaviour: ir.Behaviour, spec, params, solver) -> Tuple[List[str]
     if not returns or all(solver.check(assuming, o.guard)[0] == z3.unsat for o in returns):
         return [("always raises " + " or ".join(raising)) if raising
                 else "never returns"], FACTS, 0
-    from refines.obligation import merge_returns
+    from refines.obligation import _shape, merge_returns
 
-    merged = merge_returns(returns)
-    value = merged.value if merged is not None else None
+    groups: Dict[str, List[ir.Outcome]] = {}  # returns by the shape of their value
+    for o in returns:
+        groups.setdefault(_shape(o.value), []).append(o)
+    found: List[Tuple[List[str], bool]] = []  # per reachable shape: facts, strongest?
     lost = 0
-    where = ir.and_(assuming, ir.or_(*(o.guard for o in returns)))
-    if value is not None:
+    for members in groups.values():
+        where = ir.and_(assuming, ir.or_(*(o.guard for o in members)))
+        if solver.check(where)[0] == z3.unsat:
+            continue
+        value = merge_returns(members).value
         strongest = _strongest(value, where, params, solver)
         if strongest is not None:
-            text, exact = strongest
-            facts.append(text)
-            kind = STRONGEST if exact else FACTS
-        else:
-            found, lost = _facts(value, "result", where, solver)
-            facts.extend(found)
-            kind = FACTS
+            found.append(([strongest[0]], strongest[1]))
+            continue
+        texts, n = _facts(value, "result", where, solver)
+        lost += n
+        found.append((texts, False))
+    found = [([t for t in texts if t != "True"], exact) for texts, exact in found]
+    if len(found) == 1:
+        facts, kind = found[0][0], STRONGEST if found[0][1] and found[0][0] else FACTS
+    elif all(texts for texts, _ in found):
+        # Returns of different shapes (None on one path, an int on another).
+        facts = [" or ".join(f"({' and '.join(t)})" if len(t) > 1 or " or " in t[0]
+                             else t[0] for t, _ in found)]
+        kind = STRONGEST if all(exact for _, exact in found) else FACTS
     else:
-        kind = FACTS
-    facts = [f for f in facts if f != "True"]  # nothing known beyond the type
-    if not facts:
-        kind = FACTS
+        facts, kind = [], FACTS  # some shape has nothing known beyond its type
     facts.append("may raise " + " or ".join(raising) if raising else "never raises")
     return facts, kind, lost
 
@@ -353,7 +381,11 @@ def _facts(value, name: str, where: ir.Term, solver) -> Tuple[List[str], int]:
             return [f"{name} is not None"] + f, n
         if solver.check(where, ir.not_(value.none))[0] == z3.unsat:
             return [f"{name} is None"], 0
-        return [], 0
+        f, n = _facts(value.value, name, ir.and_(where, ir.not_(value.none)), solver)
+        if not f:
+            return [], n
+        inner = " and ".join(f)
+        return [f"{name} is None or " + (f"({inner})" if len(f) > 1 else inner)], n
     if isinstance(value, ir.Ref):
         return [], 0
     if value.sort == ir.INT:

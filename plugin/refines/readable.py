@@ -464,8 +464,13 @@ def normal_cube(cube: Cube, params: Sequence[ir.Var]) -> Optional[Cube]:
     # Literals about earlier parameters first, as the signature reads; one that
     # can raise (`x // y`, `s[0]`) after the others, which `and` evaluates
     # first in Python and which may be what keeps it from raising (`y != 0`).
-    out.sort(key=lambda lit: (_partial(lit), _first_param(lit, order)))
+    optional = _optional_names(params)
+    out.sort(key=lambda lit: (_partial(lit, optional), _first_param(lit, order)))
     return out
+
+
+def _optional_names(params: Sequence[ir.Var]) -> frozenset:
+    return frozenset(p.name for p in params if p.optional)
 
 
 def _safe(cube: Cube, context: ir.Term, params: Sequence[ir.Var], solver) -> bool:
@@ -483,14 +488,18 @@ _PARTIAL_OPS = {"getitem", "nth", "int_truediv", "sqrt", "trunc", "floor", "ceil
                 "str_of_int"}
 
 
-def _partial(t: ir.Term) -> bool:
-    """Whether evaluating ``t`` in Python can raise."""
+def _partial(t: ir.Term, optional: frozenset = frozenset()) -> bool:
+    """Whether evaluating ``t`` in Python can raise; with ``optional``, the
+    names of Optional parameters, a use of one's value counts (`x < 0` raises
+    TypeError when x is None; `x is None` does not)."""
     stack, seen = [t], set()
     while stack:
         n = stack.pop()
         if id(n) in seen:
             continue
         seen.add(id(n))
+        if isinstance(n, ir.Var) and n.name in optional:
+            return True
         if isinstance(n, ir.Arith) and n.op in ("//", "%", "/") and not (
                 isinstance(n.right, ir.Const) and n.right.value != 0):
             return True
@@ -524,8 +533,11 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
             kept.append(cube)
     cubes = kept
     not_target = ir.not_(target)
+    optional = _optional_names(params)
     for i, cube in enumerate(cubes):
         lits = list(cube)
+        # Python reads this cube only where the ones printed before it are false.
+        earlier = ir.not_(ir.or_(*(ir.and_(*c) for c in cubes[:i]))) if i else ir.TRUE
         # Weaken the cube by dropping a literal while it still implies the
         # target; that also drops literals the context implies. The largest
         # literals go first: `len(s[0]) == 1` implies `len(s) > 0` in the
@@ -533,8 +545,10 @@ def simplify_cubes(cubes: List[Cube], target: ir.Term, context: ir.Term,
         for lit in sorted(cube, key=ir.printed_size, reverse=True):
             trial = [x for x in lits if x is not lit]
             status, _, _ = solver.check(context, *trial, not_target)
-            if status == z3.unsat and (_partial(lit) or not any(_partial(x) for x in trial)
-                                       or _safe(trial, context, params, solver)):
+            if status == z3.unsat and (_partial(lit, optional)
+                                       or not any(_partial(x, optional) for x in trial)
+                                       or _safe(trial, ir.and_(context, earlier), params,
+                                                solver)):
                 lits = trial
         cubes[i] = lits
     if len(cubes) > 1:
