@@ -50,3 +50,21 @@ def check_one(tmp_path: Path, source: str, **kw):
     results = check_source(tmp_path, source, **kw)
     assert len(results) == 1, results
     return results[0]
+
+
+def git(cwd, *args, check: bool = True):
+    """Run git in ``cwd`` with a fixed identity and no signing, so that tests
+    never depend on (or touch) the machine's git configuration."""
+    import subprocess
+
+    return subprocess.run(
+        ["git", "-c", "user.email=t@t", "-c", "user.name=t", "-c", "commit.gpgsign=false",
+         "-c", "init.defaultBranch=main", *args],
+        cwd=cwd, check=check, capture_output=True, text=True)
+
+
+def commit(folder, *paths, message: str = "specs") -> None:
+    """A new repository in ``folder`` with ``paths`` (all files: none given) committed."""
+    git(folder, "init", "-q")
+    git(folder, "add", *(paths or ["-A"]))
+    git(folder, "commit", "-q", "-m", message)

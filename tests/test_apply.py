@@ -10,9 +10,10 @@ where and how the suggestion is written, not what it is.
 import difflib
 import json
 import shutil
-import subprocess
 
 import pytest
+
+from helpers import commit, git
 
 FINES = '''\
 """Library fines and bike rentals."""
@@ -152,18 +153,6 @@ def git_env(pytester, monkeypatch):
     monkeypatch.setenv("GIT_CONFIG_NOSYSTEM", "1")
     return pytester
 
-
-def git(folder, *args, check=True):
-    return subprocess.run(
-        ["git", "-c", "user.email=t@t", "-c", "user.name=t", "-c", "commit.gpgsign=false",
-         "-c", "init.defaultBranch=main", *args],
-        cwd=folder, check=check, capture_output=True, text=True)
-
-
-def commit(folder, *paths):
-    git(folder, "init", "-q")
-    git(folder, "add", *(paths or ["-A"]))
-    git(folder, "commit", "-q", "-m", "fines")
 
 
 # ---------------------------------------------------------------- --refines-diff

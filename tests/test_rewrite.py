@@ -10,12 +10,13 @@ import ast
 import os
 import shutil
 import stat
-import subprocess
 from pathlib import Path
 
 import pytest
 
 from refines.rewrite import MAX_LINE, Change, Edit, change, uncommitted, write
+
+from helpers import git
 
 NODEID = "fines.py::late_fee"
 
@@ -645,12 +646,6 @@ def git_env(tmp_path, monkeypatch):
     monkeypatch.setenv("HOME", str(tmp_path))
     return tmp_path
 
-
-def git(cwd, *args, check=True):
-    return subprocess.run(
-        ["git", "-c", "user.email=t@t", "-c", "user.name=t", "-c", "commit.gpgsign=false",
-         "-c", "init.defaultBranch=main", *args],
-        cwd=cwd, check=check, capture_output=True, text=True)
 
 
 @pytest.fixture

@@ -28,7 +28,6 @@ import dataclasses
 import json
 import math
 import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
@@ -41,7 +40,7 @@ from refines.items import obligations
 from refines.source import read_attached, read_obligation
 from refines.verdict import REFUTED
 
-from helpers import load_module
+from helpers import commit, load_module
 
 CORPUS = (Path(__file__).parent / "suggestion_corpus.py").read_text(encoding="utf-8")
 NO_SUGGESTION = {"never_met"}
@@ -163,16 +162,6 @@ def test_the_isleap_precondition_matches_the_standard_library(corpus):
         assert eval(result.exact_precondition, {}, {"year": year}) == agrees, year
 
 
-def _git(cwd, *args):
-    subprocess.run(["git", *args], cwd=cwd, check=True, capture_output=True)
-
-
-def _commit(cwd):
-    _git(cwd, "init", "-q")
-    _git(cwd, "add", "-A")
-    _git(cwd, "-c", "user.email=t@t", "-c", "user.name=t", "commit", "-q", "-m", "corpus")
-
-
 def _report(pytester, *args):
     out = pytester.path / "report.json"
     run = pytester.runpytest("-p", "no:cacheprovider", f"--refines-report={out}", *args)
@@ -183,7 +172,7 @@ def _report(pytester, *args):
 def test_applying_every_suggestion_makes_its_spec_prove(pytester):
     pytester.makepyfile(orchard=CORPUS)
     pytester.makepyprojecttoml('[tool.pytest.ini_options]\nrefines_paths = ["orchard.py"]\n')
-    _commit(pytester.path)
+    commit(pytester.path, message="corpus")
     first, data = _report(pytester, "--refines-apply")
     refuted = {r["nodeid"] for r in data["results"] if r["verdict"] == "refuted"}
     suggested = {r["nodeid"] for r in data["results"] if r["suggested_assuming"]}

@@ -244,6 +244,7 @@ def _has_quantifier(e: z3.ExprRef) -> bool:
 # ---------------------------------------------------------------- back to terms
 
 _CMP = {z3.Z3_OP_LE: "<=", z3.Z3_OP_LT: "<", z3.Z3_OP_GE: ">=", z3.Z3_OP_GT: ">"}
+_ARITH = {z3.Z3_OP_ADD: "+", z3.Z3_OP_SUB: "-", z3.Z3_OP_MUL: "*"}
 
 
 def _to_ir(e: z3.ExprRef, atoms: Dict[str, ir.Term]) -> ir.Term:
@@ -291,20 +292,10 @@ def _to_ir(e: z3.ExprRef, atoms: Dict[str, ir.Term]) -> ir.Term:
             return ir.cmp("!=", args[0], args[1])
         if k in _CMP:
             return ir.cmp(_CMP[k], args[0], args[1])
-        if k == z3.Z3_OP_ADD:
+        if k in _ARITH:
             out = args[0]
             for a in args[1:]:
-                out = ir.arith("+", out, a)
-            return out
-        if k == z3.Z3_OP_SUB:
-            out = args[0]
-            for a in args[1:]:
-                out = ir.arith("-", out, a)
-            return out
-        if k == z3.Z3_OP_MUL:
-            out = args[0]
-            for a in args[1:]:
-                out = ir.arith("*", out, a)
+                out = ir.arith(_ARITH[k], out, a)
             return out
         if k == z3.Z3_OP_UMINUS:
             return ir.neg(args[0])

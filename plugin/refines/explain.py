@@ -137,16 +137,7 @@ def _condition(guard: ir.Term, params, names: _Names, old: bool, solver) -> Opti
 
 
 def _mentions_heap(t: ir.Term) -> bool:
-    stack, seen = [t], set()
-    while stack:
-        n = stack.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
-        if _pre_read(n):
-            return True
-        stack.extend(ir.children(n))
-    return False
+    return any(_pre_read(n) for n in ir.nodes(t))
 
 
 def _pre_read(t: ir.Term) -> bool:

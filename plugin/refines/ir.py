@@ -864,15 +864,25 @@ def _with_children(t: Term, kids: tuple) -> Term:
     raise TypeError(f"not a term with children: {t!r}")
 
 
-def variables(t: Term) -> list:
-    """The distinct ``Var`` nodes in ``t``, in the order a walk meets them."""
-    out, seen, stack = [], set(), [t]
+def nodes(t: Term):
+    """Every distinct node of ``t`` once (a DAG walk, by ``id``), parents first."""
+    seen, stack = set(), [t]
     while stack:
         n = stack.pop()
         if id(n) in seen:
             continue
         seen.add(id(n))
-        if isinstance(n, Var):
-            out.append(n)
+        yield n
         stack.extend(reversed(children(n)))
-    return out
+
+
+def variables(t: Term) -> list:
+    """The distinct ``Var`` nodes in ``t``, in the order a walk meets them."""
+    return [n for n in nodes(t) if isinstance(n, Var)]
+
+
+def constants(t: Term, sorts=(INT,), limit: int = 10 ** 6) -> set:
+    """The values of the constants of ``t`` of the given sorts (ints beyond
+    ``limit`` in magnitude left out: they make poor bounds to print)."""
+    return {n.value for n in nodes(t) if isinstance(n, Const) and n.sort in sorts
+            and (n.sort != INT or abs(n.value) < limit)}

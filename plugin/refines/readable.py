@@ -229,22 +229,11 @@ def _atoms(t: ir.Term) -> Optional[List[ir.Term]]:
                 isinstance(n, ir.Cmp) and n.left.sort == ir.BOOL and n.right.sort == ir.BOOL):
             stack.extend(ir.children(n))
             continue
-        if n.sort != ir.BOOL or any(isinstance(k, ir.Ite) for k in _subterms(n)):
+        if n.sort != ir.BOOL or any(isinstance(k, ir.Ite) for k in ir.nodes(n)):
             return None
         if not any(ir.render(n) == ir.render(a) for a in out):
             out.append(n)
     return out
-
-
-def _subterms(t: ir.Term):
-    stack, seen = [t], set()
-    while stack:
-        n = stack.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
-        yield n
-        stack.extend(ir.children(n))
 
 
 def cases(t: ir.Term) -> Optional[List[Tuple[Cube, ir.Term]]]:
@@ -492,12 +481,7 @@ def _partial(t: ir.Term, optional: frozenset = frozenset()) -> bool:
     """Whether evaluating ``t`` in Python can raise; with ``optional``, the
     names of Optional parameters, a use of one's value counts (`x < 0` raises
     TypeError when x is None; `x is None` does not)."""
-    stack, seen = [t], set()
-    while stack:
-        n = stack.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
+    for n in ir.nodes(t):
         if isinstance(n, ir.Var) and n.name in optional:
             return True
         if isinstance(n, ir.Arith) and n.op in ("//", "%", "/") and not (
@@ -505,18 +489,11 @@ def _partial(t: ir.Term, optional: frozenset = frozenset()) -> bool:
             return True
         if isinstance(n, ir.Op) and n.name in _PARTIAL_OPS:
             return True
-        stack.extend(ir.children(n))
     return False
 
 
 def _first_param(t: ir.Term, order: Dict[str, int]) -> int:
-    stack, best = [t], len(order)
-    while stack:
-        n = stack.pop()
-        if isinstance(n, ir.Var):
-            best = min(best, order.get(n.name, len(order)))
-        stack.extend(ir.children(n))
-    return best
+    return min((order.get(v.name, len(order)) for v in ir.variables(t)), default=len(order))
 
 
 # ---------------------------------------------------------------- solver clean-up
@@ -617,7 +594,7 @@ def _simpler_literal(cube: Cube, context: ir.Term, params: Sequence[ir.Var],
 
 
 def _candidates(params: Sequence[ir.Var], target: ir.Term):
-    ints = sorted({c for c in _constants(target) if isinstance(c, int)} | {0, 1, -1},
+    ints = sorted(ir.constants(target) | {0, 1, -1},
                   key=lambda c: (abs(c), c))[:6]
     for p in params:
         if p.optional:
@@ -644,30 +621,10 @@ def _candidates(params: Sequence[ir.Var], target: ir.Term):
 
 
 def _nonlinear(t: ir.Term) -> bool:
-    stack = [t]
-    while stack:
-        n = stack.pop()
-        if n.sort == ir.FLOAT or isinstance(n, ir.Op):
-            return True
-        if isinstance(n, ir.Arith) and (n.op in ("//", "%") or (
-                n.op == "*" and not isinstance(n.left, ir.Const)
-                and not isinstance(n.right, ir.Const))):
-            return True
-        stack.extend(ir.children(n))
-    return False
-
-
-def _constants(t: ir.Term) -> set:
-    out, stack, seen = set(), [t], set()
-    while stack:
-        n = stack.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
-        if isinstance(n, ir.Const) and n.sort == ir.INT and abs(n.value) < 10 ** 6:
-            out.add(int(n.value))
-        stack.extend(ir.children(n))
-    return out
+    return any(n.sort == ir.FLOAT or isinstance(n, ir.Op) or (
+        isinstance(n, ir.Arith) and (n.op in ("//", "%") or (
+            n.op == "*" and not isinstance(n.left, ir.Const)
+            and not isinstance(n.right, ir.Const)))) for n in ir.nodes(t))
 
 
 # ---------------------------------------------------------------- printing

@@ -169,14 +169,8 @@ def _interval(p: ir.Var, target: ir.Term, assuming: ir.Term, solver,
         return None
 
     def holds_on(lo, hi) -> bool:
-        if not affordable():
-            return False
-        parts = [ir.not_(target)]
-        if lo is not None:
-            parts.append(ir.cmp(">=", measure, domain.term(lo)))
-        if hi is not None:
-            parts.append(ir.cmp("<=", measure, domain.term(hi)))
-        return solver.check(*parts)[0] == z3.unsat
+        return _implied(measure, None if lo is None else domain.term(lo),
+                        None if hi is None else domain.term(hi), target, solver, affordable)
 
     seed = None
     for v in domain.seeds(_seed_values(measure, target, assuming, solver)):
@@ -207,14 +201,8 @@ def _float_interval(measure, domain: "_Floats", seed: int, lo: Optional[int],
     points = domain.points
 
     def ok(low: Optional[float], high: Optional[float]) -> bool:
-        if not affordable():
-            return False
-        parts = [ir.not_(target)]
-        if low is not None:
-            parts.append(ir.cmp(">=", measure, ir.const(low)))
-        if high is not None:
-            parts.append(ir.cmp("<=", measure, ir.const(high)))
-        return solver.check(*parts)[0] == z3.unsat
+        return _implied(measure, None if low is None else ir.const(low),
+                        None if high is None else ir.const(high), target, solver, affordable)
 
     centre = points[seed]
     high = None if hi is None else _nicest(points[hi], _last_good(
@@ -296,6 +284,20 @@ def _nicest(inner: float, outer: float) -> float:
         if low <= candidate <= high:
             return candidate
     return outer
+
+
+def _implied(measure: ir.Term, low: Optional[ir.Term], high: Optional[ir.Term],
+             target: ir.Term, solver, affordable: Callable[[], bool]) -> bool:
+    """Whether ``low <= measure <= high`` (None: no bound) implies ``target``
+    for every value of everything else, by the solver within the budget."""
+    if not affordable():
+        return False
+    parts = [ir.not_(target)]
+    if low is not None:
+        parts.append(ir.cmp(">=", measure, low))
+    if high is not None:
+        parts.append(ir.cmp("<=", measure, high))
+    return solver.check(*parts)[0] == z3.unsat
 
 
 def _widest(seed, step: Callable, end, ok: Callable) -> Optional[object]:
@@ -440,25 +442,11 @@ def _seed_values(measure: ir.Term, target: ir.Term, assuming: ir.Term, solver) -
 
 
 def _int_constants(t: ir.Term) -> set:
-    return {c for c in _constants(t) if isinstance(c, int) and not isinstance(c, bool)}
+    return ir.constants(t)
 
 
 def _float_constants(t: ir.Term) -> List[float]:
-    return sorted({c for c in _constants(t) if isinstance(c, float)})
-
-
-def _constants(t: ir.Term) -> set:
-    out, stack, seen = set(), [t], set()
-    while stack:
-        n = stack.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
-        if isinstance(n, ir.Const) and n.sort in (ir.INT, ir.FLOAT):
-            if n.sort == ir.FLOAT or abs(n.value) < 10 ** 6:
-                out.add(n.value)
-        stack.extend(ir.children(n))
-    return out
+    return sorted(ir.constants(t, (ir.FLOAT,)))
 
 
 def _single_tests(params: Sequence[ir.Var]) -> List[str]:
