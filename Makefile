@@ -19,6 +19,7 @@ $(STAMP): pyproject.toml
 demo: $(STAMP)
 	cd sample_project && ../$(BIN)/python -m pytest -v -p no:cacheprovider --refines-diff --refines-report=../refines-report.json; \
 	status=$$?; echo; echo "JSON report: refines-report.json"; \
+	echo "To apply the suggestions end to end (on a copy in build/demo-apply): make demo-apply"; \
 	if [ $$status -eq 1 ]; then exit 0; else exit $$status; fi
 
 # The suggestion workflow end to end, on a copy of the sample project in its own
