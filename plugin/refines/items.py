@@ -104,6 +104,15 @@ def import_spec_file(config: pytest.Config, path: Path):
                                "consider_namespace_packages"))
 
 
+def _digest(path: Path) -> Optional[str]:
+    """The SHA-256 of a file as it is now (None if it cannot be read: then no
+    rewrite will match it)."""
+    try:
+        return hashlib.sha256(path.read_bytes()).hexdigest()
+    except OSError:
+        return None
+
+
 class RefinesFile(pytest.File):
     """A source file under the refines paths."""
 
@@ -141,7 +150,7 @@ class RefinesItem(pytest.Item):
         rewrite = self.config.getoption("refines_apply") or self.config.getoption("refines_diff")
         # The file as checked: a rewrite at the end of the session leaves it
         # alone if it changed in the meantime.
-        digest = hashlib.sha256(self.path.read_bytes()).hexdigest() if rewrite else None
+        digest = _digest(self.path) if rewrite else None
         if self.attached is not None:
             module = sys.modules.get(self.module_name)
             result = check_attached(self.attached, vars(module) if module else {},
