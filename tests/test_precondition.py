@@ -142,3 +142,45 @@ def test_printed_precondition_agrees_with_running_the_function(tmp_path):
             except ZeroDivisionError:
                 meets = b == 0 and a > 5
             assert eval(r.exact_precondition, {}, {"a": a, "b": b}) == meets, (a, b)
+
+
+def test_a_conjunction_of_many_cases_is_listed_by_the_solver(tmp_path):
+    # Thirteen clauses of two comparisons each: 2 ** 13 cases to expand by hand,
+    # far past the limit; the solver lists the two that matter instead.
+    clauses = " and ".join(f"(x > {k} or x < -{k})" for k in range(1, 14))
+    r = check_one(tmp_path, f"@refines(lambda x, result: result == ({clauses}))\n"
+                            "def always(x: int) -> bool:\n    return True\n")
+    assert r.verdict == REFUTED
+    assert r.exact_precondition == "x < -13 or x > 13"
+    for x in range(-20, 21):
+        assert eval(r.exact_precondition, {}, {"x": x}) == (abs(x) > 13), x
+
+
+def test_an_if_then_else_value_inside_many_cases_is_lifted(tmp_path):
+    # (x if p else y) > k for k = 1..7, each or x < -k: with p the condition is
+    # about x, without it about y; the cases come out without if-then-else.
+    clauses = " and ".join(f"((x if p else y) > {k} or x < -{k})" for k in range(1, 8))
+    r = check_one(tmp_path, f"@refines(lambda x, y, p, result: result == ({clauses}))\n"
+                            "def always(x: int, y: int, p: bool) -> bool:\n    return True\n")
+    assert " if " not in r.exact_precondition
+    for x, y, p in itertools.product(range(-10, 11), range(-10, 11), (True, False)):
+        meets = all((x if p else y) > k or x < -k for k in range(1, 8))
+        assert eval(r.exact_precondition, {}, {"x": x, "y": y, "p": p}) == meets, (x, y, p)
+
+
+def test_a_precondition_too_large_to_split_is_printed_as_computed_and_says_so(tmp_path):
+    # The parity of eight flags has 128 cases, more than the limit of 64 either
+    # way (common practice: parity has no shorter disjunctive form). It is
+    # printed as computed, checked, with a note that says so.
+    names = [f"b{i}" for i in range(8)]
+    parity = names[0]
+    for n in names[1:]:
+        parity = f"({parity}) != {n}"
+    r = check_one(tmp_path, f"@refines(lambda {', '.join(names)}, result: result == ({parity}))\n"
+                            f"def even(" + ", ".join(f"{n}: bool" for n in names) + ") -> bool:\n"
+                            "    return False\n")
+    assert r.verdict == REFUTED
+    assert "printed as computed" in r.precondition_note
+    for bits in itertools.product((False, True), repeat=8):
+        odd = sum(bits) % 2 == 1
+        assert eval(r.exact_precondition, {}, dict(zip(names, bits))) == (not odd), bits

@@ -138,6 +138,9 @@ def compute(ob, behaviour: ir.Behaviour, spec, solver,
     out.suggested = _suggestion(ob, wp, tightened, exact_text, spec, solver)
     if out.suggested is None:
         out.note = "no tightened assuming could be checked"
+    elif shown.cubes is None and out.exact == shown.text:
+        out.note = ("the precondition could not be split into simple cases within the limits, "
+                    "so it is printed as computed (checked equivalent)")
     if counterexample is not None:
         _falsified_by(out, counterexample, ob)
     return out

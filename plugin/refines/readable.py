@@ -174,9 +174,10 @@ def implicants(target: ir.Term, context: ir.Term, solver) -> Optional[List[Cube]
     """A DNF of ``target`` made by the solver rather than by expansion: a model
     of ``target`` not covered yet gives a cube (every atom of the formula as
     the model has it), which is widened by dropping each literal that it can
-    do without while still implying ``target``. At most ``MAX_CUBES`` cubes;
-    None if the formula has an atom the cubes cannot hold (an if-then-else
-    value) or the solver cannot say."""
+    do without while still implying ``target``. An atom with an if-then-else
+    value inside (``(x if p else y) > 1``) gives the literals of the branch the
+    model takes: ``p`` and ``x > 1``. At most ``MAX_CUBES`` cubes; None if the
+    solver cannot say."""
     atoms = _atoms(target)
     if atoms is None or len(atoms) > MAX_ATOMS:
         return None
@@ -189,10 +190,11 @@ def implicants(target: ir.Term, context: ir.Term, solver) -> Optional[List[Cube]
             return cubes
         if status != z3.sat:
             return None
-        cube = []
+        cube: Cube = []
         for a in atoms:
-            value = model.eval(solver.lower(a), model_completion=True)
-            cube.append(a if z3.is_true(value) else _negated(a))
+            for lit in _lifted(a, model, solver):
+                if not any(ir.render(lit) == ir.render(x) for x in cube):
+                    cube.append(lit)
         for lit in list(cube):
             trial = [x for x in cube if x is not lit]
             if solver.check(context, *trial, not_target)[0] == z3.unsat:
@@ -201,7 +203,26 @@ def implicants(target: ir.Term, context: ir.Term, solver) -> Optional[List[Cube]
     return None
 
 
-MAX_ATOMS = 24
+MAX_ATOMS = 48  # each cube costs one query per atom
+
+
+def _lifted(a: ir.Term, model, solver) -> Cube:
+    """``a`` as the model has it, with every if-then-else value inside it
+    replaced by the branch the model takes, and that branch's condition as a
+    literal of its own; all of them hold in the model."""
+    out: Cube = []
+    for _ in range(MAX_ATOMS):
+        ite = next((n for n in ir.nodes(a) if isinstance(n, ir.Ite) and n.sort != ir.BOOL), None)
+        if ite is None:
+            break
+        taken = z3.is_true(model.eval(solver.lower(ite.cond), model_completion=True))
+        out.extend(_lifted(ite.cond, model, solver) if _atoms(ite.cond) == [ite.cond]
+                   else [ite.cond if taken else ir.not_(ite.cond)])
+        branch = ite.then if taken else ite.orelse
+        a = ir.substitute(a, lambda n, ite=ite, branch=branch: branch if n is ite else None)
+    value = model.eval(solver.lower(a), model_completion=True)
+    out.append(a if z3.is_true(value) else _negated(a))
+    return out
 
 
 def _negated(a: ir.Term) -> ir.Term:
@@ -214,8 +235,8 @@ def _negated(a: ir.Term) -> ir.Term:
 
 def _atoms(t: ir.Term) -> Optional[List[ir.Term]]:
     """The comparisons and boolean tests ``t`` is made of, by ``and``, ``or``,
-    ``not`` and boolean if-then-else; None if a value inside one is an
-    if-then-else (the cases would have to be split first)."""
+    ``not`` and boolean if-then-else (a value inside one may be an
+    if-then-else: ``implicants`` lifts it)."""
     out, seen, stack = [], set(), [t]
     while stack:
         n = stack.pop()
@@ -229,7 +250,7 @@ def _atoms(t: ir.Term) -> Optional[List[ir.Term]]:
                 isinstance(n, ir.Cmp) and n.left.sort == ir.BOOL and n.right.sort == ir.BOOL):
             stack.extend(ir.children(n))
             continue
-        if n.sort != ir.BOOL or any(isinstance(k, ir.Ite) for k in ir.nodes(n)):
+        if n.sort != ir.BOOL:
             return None
         if not any(ir.render(n) == ir.render(a) for a in out):
             out.append(n)
