@@ -47,12 +47,47 @@ SHARE = 0.25
 
 
 def complicated(shown: Printed) -> bool:
+    """Whether a printed precondition is worth simpler alternatives: more than
+    two cases, more than three comparisons, ``LONG_TEXT`` characters or more,
+    or a comparison that is not simple (see ``_simple``)."""
     if shown.cubes is None:
         return True
-    if len(shown.cubes) > 1 or len(shown.text) >= LONG_TEXT:
+    literals = [lit for cube in shown.cubes for lit in cube]
+    return (len(shown.cubes) > 2 or len(literals) > 3 or any(len(c) > 2 for c in shown.cubes)
+            or len(shown.text) >= LONG_TEXT or not all(_simple(lit) for lit in literals))
+
+
+_TESTS = {"isnan", "isinf", "isfinite"}
+
+
+def _simple(lit: ir.Term) -> bool:
+    """A comparison of plain things: parameters, constants, lengths, attributes,
+    and sums or multiples of at most two of them (``climbers > 3 * belayers``),
+    or a float test of one; not ``//``, ``%``, products, division, or a list or
+    str built from others (``waiting + moved == moved``)."""
+    if isinstance(lit, ir.Not):
+        return _simple(lit.arg)
+    if isinstance(lit, ir.Var) or (isinstance(lit, ir.Op) and lit.name in _TESTS):
         return True
-    text = shown.text
-    return any(op in text for op in ("//", "%", "*", "math.", " / "))
+    if not isinstance(lit, ir.Cmp):
+        return False
+    return all(_plain(side) for side in (lit.left, lit.right)) and len(
+        [v for v in ir.variables(lit) if not v.name.startswith(ir.HEAP_PREFIX)]) <= 2
+
+
+def _plain(t: ir.Term) -> bool:
+    if isinstance(t, (ir.Var, ir.Const)):
+        return True
+    if isinstance(t, ir.Op):
+        return t.name in ("len", "select") and ir.printed_size(t) <= 4
+    if isinstance(t, ir.Neg):
+        return _plain(t.arg)
+    if isinstance(t, ir.Arith) and t.sort == ir.INT:
+        if t.op == "*":
+            return (isinstance(t.left, ir.Const) and _plain(t.right)) or (
+                isinstance(t.right, ir.Const) and _plain(t.left))
+        return t.op in ("+", "-") and _plain(t.left) and _plain(t.right)
+    return False
 
 
 def alternatives(target: ir.Term, shown: Printed, assuming: ir.Term,
@@ -99,12 +134,16 @@ def alternatives(target: ir.Term, shown: Printed, assuming: ir.Term,
 
     # The best interval first (the simplest form there is), then the best of
     # the rest; one of two equivalent conditions is dropped.
-    ranked = _ranked(useful(intervals), target, assuming, params, solver)
+    ranked_intervals = _ranked(useful(intervals), target, assuming, params, solver)
     simpler = min((t for t in same if len(t) < len(shown.text)), key=len, default=None)
     if simpler is not None:
         return [], simpler  # the exact precondition is that simple: nothing to add
-    return _ranked(ranked[:1] + useful(others) + ranked[1:], target, assuming, params,
-                   solver, keep_first=bool(ranked))[:MAX_SHOWN], None
+    # The ones that allow most first; an interval among them if there is one.
+    ranked = _ranked(ranked_intervals + useful(others), target, assuming, params, solver)
+    shown_ones = ranked[:MAX_SHOWN]
+    if ranked_intervals and not any(t in ranked_intervals for t in shown_ones):
+        shown_ones = shown_ones[:MAX_SHOWN - 1] + ranked_intervals[:1]
+    return shown_ones, None
 
 
 def _units_per_second() -> int:
@@ -114,10 +153,9 @@ def _units_per_second() -> int:
 
 
 def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
-            params: Sequence[ir.Var], solver, keep_first: bool = False) -> List[str]:
-    """By how many sampled inputs that meet the spec each allows, then length
-    (the first stays first with ``keep_first``); one of two equivalent texts
-    is dropped."""
+            params: Sequence[ir.Var], solver) -> List[str]:
+    """By how many sampled inputs that meet the spec each allows, then length;
+    one of two equivalent texts is dropped."""
     if len(texts) <= 1:
         return texts
     from refines.prove import diverse
@@ -137,8 +175,7 @@ def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
                 pass
         return n
 
-    head = texts[:1] if keep_first else []
-    order = head + sorted(texts[len(head):], key=lambda t: (-covered(t), len(t), t))
+    order = sorted(texts, key=lambda t: (-covered(t), len(t), t))
     out: List[str] = []
     for text in order:
         value = parse_condition(text, params)
