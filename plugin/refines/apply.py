@@ -35,7 +35,11 @@ def run(config, edits: List[dict], timeout: float, examples: int,
     apply = config.getoption("refines_apply")
     forced = config.getoption("refines_allow_uncommitted")
     by_file: Dict[str, List[dict]] = {}
+    seen = set()
     for e in edits:
+        if (e["file"], e["line"]) in seen:
+            continue  # one spec run twice (xdist's --dist each, say): one edit
+        seen.add((e["file"], e["line"]))
         by_file.setdefault(e["file"], []).append(e)
     out = []
     for file, records in sorted(by_file.items()):
