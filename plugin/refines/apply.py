@@ -20,7 +20,6 @@ Everything is returned as plain data; ``report.rewrite_lines`` prints it.
 from __future__ import annotations
 
 import hashlib
-import importlib
 import json
 from pathlib import Path
 from typing import Callable, Dict, List

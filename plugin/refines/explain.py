@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
-from typing import Dict, List, Optional, Sequence, Tuple
+from typing import Dict, List, Optional, Tuple
 
 import z3
 
@@ -61,13 +61,14 @@ class Explanation:
 def explain(ob, behaviour: ir.Behaviour, spec, solver) -> Explanation:
     params = ob.params
     out = Explanation(assuming=ob.assuming.text if ob.assuming is not None else None)
-    names = _Names(behaviour)
-    changes = any(_effects(o, params, names) for o in behaviour.outcomes if o.returns)
+    names = _Names()
+    effects = {id(o): _effects(o, params) for o in behaviour.outcomes if o.returns}
+    changes = any(effects.values())
     skipped = 0
     grouped: Dict[str, List[ir.Term]] = {}
     order: List[str] = []
     for o in behaviour.outcomes:
-        for guard, then in _ends(o, params, names, changes, solver):
+        for guard, then in _ends(o, effects.get(id(o), []), params, names, changes, solver):
             if then not in grouped:
                 grouped[then] = []
                 order.append(then)
@@ -82,7 +83,7 @@ def explain(ob, behaviour: ir.Behaviour, spec, solver) -> Explanation:
             continue
         out.cases.append(("always" if when == "True" else when, then))
     shown = " ".join(w + " " + t for w, t in out.cases)
-    used = [n for n in names.used if re.search(rf"\b{n}\b", shown)]
+    used = [n for n in names.index.values() if re.search(rf"\b{n}\b", shown)]
     if used:
         out.unknowns = ", ".join(used) + ": values the untranslated parts give (" \
             + "; ".join(behaviour.untranslated) + ")"
@@ -101,18 +102,16 @@ class _Names:
     """Display names: ``unknown_<n>`` for opaque values, ``old(...)`` for
     pre-state reads of lists and objects in a function that changes them."""
 
-    def __init__(self, behaviour: ir.Behaviour) -> None:
-        self.index: Dict[str, str] = {}
-        self.used: List[str] = []
+    def __init__(self) -> None:
+        self.index: Dict[str, str] = {}  # opaque name -> display name, in order of use
 
     def shown(self, t: ir.Term, old: bool) -> ir.Term:
         def replace(node: ir.Term):
             if ir.is_opaque(node):
                 if node.name not in self.index:
                     self.index[node.name] = f"unknown_{len(self.index) + 1}"
-                    self.used.append(self.index[node.name])
                 return ir.Var(self.index[node.name], node.sort)
-            if old and _pre_read(node):
+            if old and ir.is_pre_read(node):
                 return ir.Var(f"old({ir.render(node)})", node.sort)
             return None
 
@@ -137,21 +136,10 @@ def _condition(guard: ir.Term, params, names: _Names, old: bool, solver) -> Opti
 
 
 def _mentions_heap(t: ir.Term) -> bool:
-    return any(_pre_read(n) for n in ir.nodes(t))
+    return any(ir.is_pre_read(n) for n in ir.nodes(t))
 
 
-def _pre_read(t: ir.Term) -> bool:
-    return (isinstance(t, ir.Op) and t.name == "select" and isinstance(t.args[0], ir.Var)
-            and t.args[0].name.startswith(ir.HEAP_PREFIX)
-            and isinstance(t.args[1], ir.Var) and t.args[1].name.endswith(ir.REF_SUFFIX))
-
-
-def _written(o: ir.Outcome) -> bool:
-    return bool(o.heap) and any(arr is not heap.initial_field(key)
-                                for key, arr in o.heap.items())
-
-
-def _ends(o: ir.Outcome, params, names: _Names, old: bool,
+def _ends(o: ir.Outcome, effects: List[ir.Term], params, names: _Names, old: bool,
           solver) -> List[Tuple[ir.Term, str]]:
     """(guard, what happens) pairs for one outcome; an if-then-else value is
     split into its cases."""
@@ -160,7 +148,6 @@ def _ends(o: ir.Outcome, params, names: _Names, old: bool,
     if not o.returns:
         why = f": {o.cause}" if o.cause and not o.cause.startswith("raise ") else ""
         return [(o.guard, f"raises {o.exception.__name__} (line {o.line}{why})")]
-    effects = _effects(o, params, names)
     pieces = _result_cases(o.value, {p.name: i for i, p in enumerate(params)}, o.heap or {})
     if isinstance(o.value, ir.Term) and o.value.sort == ir.BOOL \
             and not isinstance(o.value, ir.Const):
@@ -241,7 +228,7 @@ def _equals(v, heap_state: dict):
     return f"result == {ir.render_value(v)}"
 
 
-def _effects(o: ir.Outcome, params, names: _Names) -> List[ir.Term]:
+def _effects(o: ir.Outcome, params) -> List[ir.Term]:
     """``xs == <new contents>`` and ``b.slots == <new value>`` for the lists
     and objects of the parameters that this outcome changes."""
     out = []
@@ -264,7 +251,7 @@ def _effects(o: ir.Outcome, params, names: _Names) -> List[ir.Term]:
 
 
 def _render(t: ir.Term, names: _Names, old: bool) -> str:
-    if isinstance(t, ir.Cmp) and _pre_read(t.left):
+    if isinstance(t, ir.Cmp) and ir.is_pre_read(t.left):
         # An effect: the field after the call, read plainly, equals a value
         # computed from the pre-state, whose reads print as old(...).
         right = names.shown(t.right, True)
@@ -298,14 +285,11 @@ def _guarantee(behaviour: ir.Behaviour, spec, params, solver) -> Tuple[List[str]
     if not returns or all(solver.check(assuming, o.guard)[0] == z3.unsat for o in returns):
         return [("always raises " + " or ".join(raising)) if raising
                 else "never returns"], FACTS, 0
-    from refines.obligation import _shape, merge_returns
+    from refines.obligation import merge_returns, returns_by_shape
 
-    groups: Dict[str, List[ir.Outcome]] = {}  # returns by the shape of their value
-    for o in returns:
-        groups.setdefault(_shape(o.value), []).append(o)
     found: List[Tuple[List[str], bool]] = []  # per reachable shape: facts, strongest?
     lost = 0
-    for members in groups.values():
+    for members in returns_by_shape(returns):
         where = ir.and_(assuming, ir.or_(*(o.guard for o in members)))
         if solver.check(where)[0] == z3.unsat:
             continue

@@ -101,6 +101,11 @@ def initial_field(key: str) -> ir.Var:
     return _INITIAL[key]
 
 
+def initial_contents(v: ir.Ref) -> ir.Term:
+    """What the list ``v`` (a parameter's) holds on entry."""
+    return ir.select(initial_field(field_key(v.kind)), v.ref)
+
+
 def describe(kind: str) -> str:
     if kind.startswith("list:"):
         return f"list[{elem_sort(kind)}]"

@@ -725,12 +725,18 @@ def _float_text(value: float):
     return text, _PREC["neg"] if text.startswith("-") else _PREC["atom"]
 
 
+def is_pre_read(t: Term) -> bool:
+    """A read of a parameter's list or attribute as it was on entry."""
+    return (isinstance(t, Op) and t.name == "select" and isinstance(t.args[0], Var)
+            and t.args[0].name.startswith(HEAP_PREFIX) and isinstance(t.args[1], Var)
+            and t.args[1].name.endswith(REF_SUFFIX))
+
+
 def _render_select(t: Op, memo: dict):
     """A pre-state read prints as Python: ``xs`` for a list parameter's
     contents, ``acct.balance`` for an attribute of an object parameter."""
     arr, ref = t.args
-    if isinstance(arr, Var) and arr.name.startswith(HEAP_PREFIX) and isinstance(ref, Var) \
-            and ref.name.endswith(REF_SUFFIX):
+    if is_pre_read(t):
         owner = ref.name[:-len(REF_SUFFIX)]
         field = arr.name[len(HEAP_PREFIX):]
         if field.startswith("list:"):

@@ -184,10 +184,9 @@ class RefinesItem(pytest.Item):
 
     def show(self, path: str) -> str:
         """A file path as reports show it: relative to the rootdir when inside it."""
-        try:
-            return Path(path).resolve().relative_to(self.config.rootpath).as_posix()
-        except ValueError:
-            return str(path)
+        from refines.plugin import shown_path
+
+        return shown_path(self.config, path)
 
     @property
     def rel_path(self) -> str:

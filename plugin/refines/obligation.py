@@ -92,26 +92,28 @@ def violations(behaviour: ir.Behaviour, spec: Spec) -> List[Violation]:
     Returns of the same shape are merged into one value (an if-then-else over
     their guards), so the relation is read once rather than once per return.
     """
-    out: List[Violation] = []
-    groups: Dict[str, List[ir.Outcome]] = {}
-    for o in behaviour.outcomes:
-        if o.unmodelled:
-            continue  # checked apart: it can only make the verdict unknown
-        if o.returns:
-            groups.setdefault(_shape(o.value), []).append(o)
-        else:
-            out.append(Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o))
-    for members in groups.values():
+    # An unmodelled outcome is checked apart: it can only make the verdict unknown.
+    out = [Violation(ir.and_(o.guard, ir.not_(allowed(spec, o))), o)
+           for o in behaviour.outcomes if not o.returns and not o.unmodelled]
+    for members in returns_by_shape(behaviour.outcomes):
         merged = merge_returns(members)
         out.append(Violation(ir.and_(merged.guard, ir.not_(allowed(spec, merged))), merged))
     return out
 
 
-def merge_returns(members: List[ir.Outcome]) -> Optional[ir.Outcome]:
+def returns_by_shape(outcomes) -> List[List[ir.Outcome]]:
+    """The returning outcomes, grouped by the shape of their value (the order
+    of first appearance); one group merges into one value (``merge_returns``)."""
+    groups: Dict[str, List[ir.Outcome]] = {}
+    for o in outcomes:
+        if o.returns:
+            groups.setdefault(_shape(o.value), []).append(o)
+    return list(groups.values())
+
+
+def merge_returns(members: List[ir.Outcome]) -> ir.Outcome:
     """One returning outcome for returns of one shape: the value and heap are
-    if-then-else terms over their guards. None when the shapes differ."""
-    if len({_shape(o.value) for o in members}) != 1:
-        return None
+    if-then-else terms over their guards."""
     value, heap_state = members[-1].value, dict(members[-1].heap or {})
     for o in reversed(members[:-1]):
         value = _merge_value(o.guard, o.value, value)

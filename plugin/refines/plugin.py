@@ -123,6 +123,14 @@ def _arg_path(config: pytest.Config, arg: str) -> Optional[Path]:
         return None
 
 
+def shown_path(config: pytest.Config, path) -> str:
+    """A file path as reports show it: relative to the rootdir when inside it."""
+    try:
+        return Path(path).resolve().relative_to(config.rootpath).as_posix()
+    except ValueError:
+        return str(path)
+
+
 def timeout_of(config: pytest.Config) -> float:
     return _setting(config, "refines_timeout", float, "seconds as a number")
 
@@ -237,7 +245,8 @@ class Gatherer:
 
             try:
                 self.rewrites = run(self.config, self.edits, timeout_of(self.config),
-                                    examples_of(self.config), self._show)
+                                    examples_of(self.config),
+                                    lambda p: shown_path(self.config, p))
             except Exception as exc:  # noqa: BLE001 -- never crash the session, write nothing
                 why = (f"libcst cannot be imported ({exc}); install it: python -m pip install "
                        f"libcst" if isinstance(exc, ImportError)
@@ -258,8 +267,3 @@ class Gatherer:
                        encoding="utf-8")
         os.replace(tmp, path)
 
-    def _show(self, path: Path) -> str:
-        try:
-            return Path(path).resolve().relative_to(self.config.rootpath).as_posix()
-        except ValueError:
-            return str(path)

@@ -28,7 +28,6 @@ and which the counterexample, a real run that breaks the spec, falsifies.
 
 from __future__ import annotations
 
-import builtins
 import math
 from dataclasses import dataclass, field
 from typing import Any, Dict, List, Optional
@@ -37,7 +36,7 @@ import z3
 
 from refines import eliminate, ir, sufficient
 from refines.obligation import allowed
-from refines.readable import MAX_PRINTED, equivalent, mentions, printed, readable
+from refines.readable import MAX_PRINTED, equivalent, evaluate, mentions, printed, readable
 
 # What a precondition is exact for: the function, or the translation, whose
 # untranslated parts may do anything (then it is sufficient for the function).
@@ -57,36 +56,15 @@ class Preconditions:
 def weakest(behaviour: ir.Behaviour, spec) -> ir.Term:
     """The weakest precondition of the translated body for ``spec``, with the
     opaque values of untranslated parts still free (see ``compute``)."""
-    if not any(ir.is_opaque(v) for v in _outcome_vars(behaviour)):
+    if not behaviour.untranslated:
         # Guards are disjoint and cover every input: substitute (one-point law).
         # An unmodelled outcome is left out, i.e. counts as breaking the spec.
         return ir.or_(*(ir.and_(o.guard, allowed(spec, o)) for o in behaviour.outcomes
                         if not o.unmodelled))
+    # Opaque values (only untranslated parts make them) may leave every guard
+    # false for some choice of them: each outcome implies its spec instead.
     return ir.and_(*(ir.implies(o.guard, ir.FALSE if o.unmodelled else allowed(spec, o))
                      for o in behaviour.outcomes))
-
-
-def _outcome_vars(behaviour: ir.Behaviour) -> List[ir.Var]:
-    out: List[ir.Var] = []
-    for o in behaviour.outcomes:
-        out.extend(ir.variables(o.guard))
-        if o.returns:
-            out.extend(_value_vars(o.value))
-        for arr in (o.heap or {}).values():
-            out.extend(ir.variables(arr))
-    return out
-
-
-def _value_vars(v) -> List[ir.Var]:
-    if isinstance(v, ir.Tup):
-        return [x for i in v.items for x in _value_vars(i)]
-    if isinstance(v, ir.Opt):
-        return ir.variables(v.none) + ir.variables(v.value)
-    if isinstance(v, ir.Ref):
-        return ir.variables(v.ref)
-    if isinstance(v, ir.Term):
-        return ir.variables(v)
-    return []
 
 
 def compute(ob, behaviour: ir.Behaviour, spec, solver,
@@ -96,12 +74,10 @@ def compute(ob, behaviour: ir.Behaviour, spec, solver,
     call) must falsify everything shown; what it does not falsify is dropped."""
     params = ob.params
     wp = weakest(behaviour, spec)
-    scope = FOR_FUNCTION
     parts = tuple(behaviour.untranslated)
     unmodelled = [o.unmodelled for o in behaviour.outcomes if o.unmodelled]
+    scope = FOR_TRANSLATION if parts or unmodelled else FOR_FUNCTION
     opaque = [v for v in ir.variables(wp) if ir.is_opaque(v)]
-    if parts or unmodelled:
-        scope = FOR_TRANSLATION
     if opaque:
         gone = eliminate.forall(wp, opaque, solver)
         if gone.term is None:
@@ -183,23 +159,14 @@ def _falsified_by(out: Preconditions, inputs: Dict[str, Any], ob) -> None:
     """The counterexample breaks the spec, so every precondition shown must be
     false on it. Evaluated by Python on copies of the inputs; a text that is
     true (or raises) there is an internal inconsistency and is not shown."""
-    scope = {"math": math, "__builtins__": builtins}
+    def wrong(text: str) -> bool:
+        return evaluate(text, inputs) is not False
 
-    def holds(text: str) -> Optional[bool]:
-        try:
-            return bool(eval(text, scope, dict(inputs)))  # noqa: S307 -- checked text
-        except Exception:  # noqa: BLE001
-            return None
-
-    bad = []
-    if out.exact is not None and holds(out.exact) is not False:
-        bad.append(out.exact)
+    bad = [t for t in [out.exact] + out.sufficient if t is not None and wrong(t)]
+    if out.exact in bad:
         out.exact = None
-    kept = []
-    for text in out.sufficient:
-        (bad.append(text) if holds(text) is not False else kept.append(text))
-    out.sufficient = kept
-    if out.suggested is not None and holds(out.suggested.split(":", 1)[1]) is not False:
+    out.sufficient = [t for t in out.sufficient if t not in bad]
+    if out.suggested is not None and wrong(out.suggested.split(":", 1)[1]):
         bad.append(out.suggested)
         out.suggested = None
     if bad:

@@ -12,7 +12,6 @@ on what else ran in the process (or on xdist's scheduling).
 
 from __future__ import annotations
 
-import math
 import time
 import traceback
 from typing import Any, Callable, List, Optional, Tuple, Union
@@ -488,7 +487,7 @@ def _list_differs(p: ir.Var, items: list) -> Optional[ir.Term]:
     if elem == ir.STR and any(ord(c) > strmath.SOLVER_MAX_CODE_POINT
                               for x in items for c in x):
         return None
-    contents = ir.select(heap.initial_field(heap.field_key(p.kind)), ir.initial(p).ref)
+    contents = heap.initial_contents(ir.initial(p))
     value: ir.Term = ir.empty_seq(elem)
     for x in items:
         value = ir.arith("+", value, ir.op("seq_unit", ir.const(x), sort=ir.seq_sort(elem)))

@@ -106,15 +106,24 @@ def equivalent(text: str, target: ir.Term, context: ir.Term,
 
 
 def implies(text: str, target: ir.Term, context: ir.Term,
-            params: Sequence[ir.Var], solver) -> bool:
-    """The solver checks that ``text`` never raises where ``context`` holds,
-    and that it implies ``target`` there."""
+            params: Sequence[ir.Var], solver):
+    """``text`` read back (a ``SpecValue``) if the solver shows that it never
+    raises where ``context`` holds and implies ``target`` there; else None."""
     value = parse_condition(text, params)
     if value is None:
-        return False
+        return None
     bad = ir.or_(ir.not_(value.defined), ir.and_(value.holds, ir.not_(target)))
     status, _, _ = solver.check(context, bad)
-    return status == z3.unsat
+    return value if status == z3.unsat else None
+
+
+def evaluate(text: str, inputs: dict) -> Optional[bool]:
+    """A printed condition evaluated by Python on ``inputs`` (None: it raised).
+    The text names only parameters, builtins and ``math``, and changes nothing."""
+    try:
+        return bool(eval(text, {"math": math}, dict(inputs)))  # noqa: S307 -- checked text
+    except Exception:  # noqa: BLE001
+        return None
 
 
 def mentions(text: str, name: str) -> bool:

@@ -168,8 +168,7 @@ def explain_lines(results: List[dict]) -> List[str]:
         lines.append("  what the body does, as translated (`when` reads the arguments "
                      "as passed):")
         cases = e.get("relation") or []
-        width = max((len(w) for w, _ in ((c["when"], c["then"]) for c in cases)
-                     if w != "always"), default=0)
+        width = max((len(c["when"]) for c in cases if c["when"] != "always"), default=0)
         for c in cases:
             when, then = c["when"], c["then"]
             if when == "always":

@@ -1,8 +1,9 @@
 """Simpler sufficient preconditions: conditions that imply the exact one.
 
-When the exact precondition is complicated (several cases, or reasoning
-through ``//``, ``%``, products or floats), one or two simpler conditions
-often say nearly as much: one case of it, or an interval on one parameter.
+When the exact precondition is complicated (``complicated``: many cases or
+comparisons, or comparisons that are not simple), one or two simpler
+conditions often say nearly as much: one case of it, or an interval on one
+parameter.
 They are *stronger than necessary* -- every input they allow meets the spec,
 but some inputs that meet it are left out -- and the report says so.
 
@@ -10,8 +11,9 @@ Candidates:
 
 * each case (cube) of the printed exact precondition, when it has several;
 * for each parameter, the widest interval around a point where the spec is
-  met, on the parameter itself (an int, or a float over the constants in the
-  condition) or on its length (a str or a list), found by galloping and
+  met, on the parameter itself (an int, or a float: first over values worked
+  out from the constants in the condition, then short decimals and doubles
+  beyond) or on its length (a str or a list), found by galloping and
   bisection with one solver query per step;
 * a single test: a bool parameter or its negation, ``x is not None``.
 
@@ -19,19 +21,21 @@ Each candidate is kept only if the solver shows that it implies the exact
 precondition (read back from its printed text, so it cannot raise either),
 that it is not equivalent to it, and that some input the current
 ``assuming`` allows satisfies it. They are ranked by how many of a sample of
-inputs meeting the spec (diverse solver models) they allow, then by length.
+inputs meeting the spec (diverse solver models) they allow, then by length,
+and an interval is among those shown when there is one. An interval that is
+*equivalent* to the exact precondition is returned apart: it prints it.
 """
 
 from __future__ import annotations
 
 import math
 import struct
-from typing import Callable, List, Optional, Sequence, Tuple
+from typing import Callable, Dict, List, Optional, Sequence, Tuple
 
 import z3
 
 from refines import ir
-from refines.readable import Printed, implies, parse_condition, print_cube
+from refines.readable import Printed, evaluate, implies, print_cube
 
 MAX_SHOWN = 2
 # Parameters whose intervals are searched, and seed points tried for each.
@@ -115,35 +119,37 @@ def alternatives(target: ir.Term, shown: Printed, assuming: ir.Term,
     others.extend(_single_tests(params))
 
     same: List[str] = []  # equivalent to the target, by the checks below
+    read: Dict[str, object] = {}  # text -> the condition read back (a SpecValue)
 
     def useful(texts: List[str]) -> List[str]:
         kept = []
         for text in dict.fromkeys(texts):
             if not affordable():
                 break
-            if text == shown.text or not implies(text, target, ir.TRUE, params, solver):
+            value = None if text == shown.text else implies(text, target, ir.TRUE, params,
+                                                            solver)
+            if value is None:
                 continue
-            value = parse_condition(text, params)
             if solver.check(target, ir.not_(value.holds))[0] == z3.unsat:
                 same.append(text)  # the exact one, in other words
                 continue
             if solver.check(assuming, value.holds)[0] != z3.sat:
                 continue  # nothing the current assuming allows: no help
+            read[text] = value
             kept.append(text)
         return kept
 
-    # The best interval first (the simplest form there is), then the best of
-    # the rest; one of two equivalent conditions is dropped.
-    ranked_intervals = _ranked(useful(intervals), target, assuming, params, solver)
+    ranged = useful(intervals)
     simpler = min((t for t in same if len(t) < len(shown.text)), key=len, default=None)
     if simpler is not None:
         return [], simpler  # the exact precondition is that simple: nothing to add
     # The ones that allow most first; an interval among them if there is one.
-    ranked = _ranked(ranked_intervals + useful(others), target, assuming, params, solver)
-    shown_ones = ranked[:MAX_SHOWN]
-    if ranked_intervals and not any(t in ranked_intervals for t in shown_ones):
-        shown_ones = shown_ones[:MAX_SHOWN - 1] + ranked_intervals[:1]
-    return shown_ones, None
+    ranked = _ranked(ranged + useful(others), read, target, assuming, params, solver)
+    chosen = ranked[:MAX_SHOWN]
+    best_interval = next((t for t in ranked if t in ranged), None)
+    if best_interval is not None and best_interval not in chosen:
+        chosen = chosen[:MAX_SHOWN - 1] + [best_interval]
+    return chosen, None
 
 
 def _units_per_second() -> int:
@@ -152,10 +158,10 @@ def _units_per_second() -> int:
     return RLIMIT_PER_SECOND
 
 
-def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
+def _ranked(texts: List[str], read: Dict[str, object], target: ir.Term, assuming: ir.Term,
             params: Sequence[ir.Var], solver) -> List[str]:
     """By how many sampled inputs that meet the spec each allows, then length;
-    one of two equivalent texts is dropped."""
+    of two equivalent texts the first is kept (``read``: each text read back)."""
     if len(texts) <= 1:
         return texts
     from refines.prove import diverse
@@ -164,26 +170,15 @@ def _ranked(texts: List[str], target: ir.Term, assuming: ir.Term,
         sample = diverse(solver, params, [assuming, target], SAMPLE)
     except Exception:  # noqa: BLE001 -- ranking is an aid
         sample = []
-    scope = {"math": math}
 
     def covered(text: str) -> int:
-        n = 0
-        for inputs in sample:
-            try:
-                n += bool(eval(text, scope, dict(inputs)))  # noqa: S307 -- checked text
-            except Exception:  # noqa: BLE001
-                pass
-        return n
+        return sum(bool(evaluate(text, inputs)) for inputs in sample)
 
-    order = sorted(texts, key=lambda t: (-covered(t), len(t), t))
     out: List[str] = []
-    for text in order:
-        value = parse_condition(text, params)
-        if any(solver.check(ir.not_(ir.cmp("==", value.holds,
-                                           parse_condition(o, params).holds)))[0] == z3.unsat
-               for o in out):
-            continue
-        out.append(text)
+    for text in sorted(texts, key=lambda t: (-covered(t), len(t), t)):
+        if not any(solver.check(ir.not_(ir.cmp("==", read[text].holds, read[o].holds)))[0]
+                   == z3.unsat for o in out):
+            out.append(text)
     return out
 
 
@@ -347,8 +342,6 @@ def _widest(seed, step: Callable, end, ok: Callable) -> Optional[object]:
     bad = None
     for _ in range(64):  # gallop
         probe = step(seed, n)
-        if probe is None:
-            break
         if ok(probe):
             good, n = probe, n * 2
         else:
@@ -381,7 +374,7 @@ class _Ints:
     def up(self, k: int, n: int) -> int:
         return k + n
 
-    def down(self, k: int, n: int) -> Optional[int]:
+    def down(self, k: int, n: int) -> int:
         out = k - n
         return out if self.bottom is None or out >= self.bottom else self.bottom
 
@@ -406,9 +399,9 @@ class _Ints:
 
 
 class _Floats:
-    """Floats: the interval's ends are among the constants of the condition,
-    their neighbours, 0.0, 1.0 and the infinities (sorted), since a search
-    over every double would cost a query per bit."""
+    """Floats: candidate ends are the constants of the condition and values
+    worked out from them, their neighbours, 0.0, 1.0 and the infinities
+    (sorted); ``_float_interval`` then refines the ends found between them."""
 
     def __init__(self, constants: List[float]) -> None:
         points = {0.0, 1.0, -1.0, math.inf, -math.inf}
@@ -429,10 +422,10 @@ class _Floats:
     def term(self, i: int) -> ir.Term:
         return ir.const(self.points[i])
 
-    def up(self, i: int, n: int) -> Optional[int]:
+    def up(self, i: int, n: int) -> int:
         return min(i + n, self.top)
 
-    def down(self, i: int, n: int) -> Optional[int]:
+    def down(self, i: int, n: int) -> int:
         return max(i - n, self.bottom)
 
     def seeds(self, values: List[float]) -> List[int]:
@@ -458,8 +451,7 @@ def _length(p: ir.Var) -> ir.Term:
     if isinstance(v, ir.Ref):
         from refines import heap
 
-        items = ir.select(heap.initial_field(heap.field_key(p.kind)), v.ref)
-        return ir.op("len", items, sort=ir.INT)
+        return ir.op("len", heap.initial_contents(v), sort=ir.INT)
     return ir.str_len(p)
 
 
